@@ -1,0 +1,140 @@
+"""One full comparison of methods over datasets: ranks, omnibus tests, post-hoc tests, plain words."""
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from ..errors import LopsidedError, unknown
+from . import bayes, posthoc, ranks as rankmod
+
+MISSING_POLICIES = ("drop-datasets", "drop-methods")
+
+
+class AnalysisError(LopsidedError):
+    """The score table cannot support a comparison."""
+
+
+@dataclass
+class Comparison:
+    metric: str
+    higher_is_better: bool
+    alpha: float
+    rope: float
+    average_ranks: pd.Series          # sorted, best first
+    rank_intervals: pd.DataFrame      # bootstrap percentile interval per method
+    friedman: rankmod.FriedmanResult
+    nemenyi: posthoc.CriticalDifference
+    nemenyi_alpha10: posthoc.CriticalDifference
+    nemenyi_p: pd.DataFrame
+    groups: list                      # lists of method names not significantly different
+    pairwise: list                    # dicts a, b, wilcoxon_p, holm_p, nemenyi_p, bayes
+    control: str | None = None
+    bonferroni_dunn: posthoc.CriticalDifference | None = None
+    bonferroni_dunn_p: dict = field(default_factory=dict)
+    dropped: list = field(default_factory=list)   # what the missing-cell policy removed
+    missing_policy: str = "drop-datasets"
+    datasets: list = field(default_factory=list)
+
+    @property
+    def methods(self):
+        return list(self.average_ranks.index)
+
+    def as_json(self):
+        """The stats.json content."""
+        f = self.friedman
+        out = {
+            "metric": self.metric, "higher_is_better": self.higher_is_better,
+            "n_datasets": f.n_datasets, "n_methods": f.n_methods, "alpha": self.alpha, "rope": self.rope,
+            "missing_policy": self.missing_policy, "dropped": self.dropped, "datasets": self.datasets,
+            "average_ranks": {m: float(r) for m, r in self.average_ranks.items()},
+            "rank_intervals": {m: [float(r.low), float(r.high)] for m, r in self.rank_intervals.iterrows()},
+            "friedman": {"chi2": f.chi2, "p": f.p, "chi2_tie_corrected": f.chi2_tie_corrected,
+                         "p_tie_corrected": f.p_tie_corrected, "dof": f.n_methods - 1},
+            "iman_davenport": {"F": f.iman_davenport_F, "p": f.iman_davenport_p,
+                               "dof": [f.n_methods - 1, (f.n_methods - 1) * (f.n_datasets - 1)]},
+            "nemenyi": {"q_alpha": self.nemenyi.q_alpha, "cd": self.nemenyi.cd,
+                        "alpha_0.10": {"q_alpha": self.nemenyi_alpha10.q_alpha, "cd": self.nemenyi_alpha10.cd}},
+            "groups": self.groups,
+            "pairwise": self.pairwise,
+        }
+        if self.control is not None:
+            out["bonferroni_dunn"] = {"control": self.control, "q_alpha": self.bonferroni_dunn.q_alpha,
+                                      "cd": self.bonferroni_dunn.cd, "p": self.bonferroni_dunn_p}
+        return _finite(out)
+
+
+def _finite(value):
+    """JSON has no NaN or infinity: write them as null and the string 'inf'."""
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_finite(v) for v in value]
+    if isinstance(value, float) and not np.isfinite(value):
+        return None if np.isnan(value) else ("inf" if value > 0 else "-inf")
+    return value
+
+
+def apply_missing_policy(matrix, policy):
+    """Remove incomplete datasets (rows) or methods (columns); never impute. Returns (table, dropped)."""
+    if policy not in MISSING_POLICIES:
+        raise AnalysisError(unknown("missing-cell policy", policy, MISSING_POLICIES))
+    axis = 1 if policy == "drop-datasets" else 0
+    incomplete = matrix.isna().any(axis=axis)
+    dropped = [str(x) for x in incomplete[incomplete].index]
+    kept = matrix.loc[~incomplete] if axis == 1 else matrix.loc[:, ~incomplete]
+    return kept, dropped
+
+
+def compare(matrix, metric="score", higher_is_better=True, alpha=0.05, control=None, rope=0.01,
+            missing="drop-datasets", samples=4000, seed=0):
+    """Full comparison of the columns (methods) of ``matrix`` over its rows (datasets)."""
+    if not 0 < alpha < 1:
+        raise AnalysisError(f"alpha={alpha} must lie between 0 and 1")
+    if rope < 0:
+        raise AnalysisError(f"rope={rope} must be zero or positive")
+    table, dropped = apply_missing_policy(matrix.astype(float), missing)
+    n, k = table.shape
+    if n < 2 or k < 2:
+        raise AnalysisError(f"a comparison needs at least 2 complete datasets and 2 methods; "
+                            f"have {n} x {k} after the {missing} policy (dropped: {dropped or 'none'})")
+    if control is not None and control not in table.columns:
+        raise AnalysisError(unknown("control method", control, table.columns))
+    rank_table = rankmod.rank_rows(table, higher_is_better)
+    mean_ranks = rank_table.mean(axis=0).sort_values(kind="mergesort")
+    order = list(mean_ranks.index)
+    rank_table, table = rank_table[order], table[order]
+    nemenyi = posthoc.nemenyi_cd(alpha, k, n)
+    p_matrix = posthoc.nemenyi_p(mean_ranks.to_numpy(), n)
+    result = Comparison(
+        metric=metric, higher_is_better=higher_is_better, alpha=alpha, rope=rope,
+        average_ranks=mean_ranks,
+        rank_intervals=rankmod.bootstrap_rank_intervals(rank_table, seed=seed),
+        friedman=rankmod.friedman(rank_table),
+        nemenyi=nemenyi, nemenyi_alpha10=posthoc.nemenyi_cd(0.10, k, n),
+        nemenyi_p=pd.DataFrame(p_matrix, index=order, columns=order),
+        groups=[[order[i] for i in run] for run in posthoc.cliques(mean_ranks.to_numpy(), nemenyi.cd)],
+        pairwise=_pairwise(table, higher_is_better, rope, p_matrix, samples, seed),
+        dropped=dropped, missing_policy=missing, datasets=[str(d) for d in table.index],
+    )
+    if control is not None:
+        result.control = control
+        result.bonferroni_dunn = posthoc.bonferroni_dunn_cd(alpha, k, n)
+        p = posthoc.bonferroni_dunn_p(mean_ranks.to_numpy(), n, order.index(control))
+        result.bonferroni_dunn_p = {m: float(v) for m, v in zip(order, p) if m != control}
+    return result
+
+
+def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed):
+    oriented = table.to_numpy(dtype=float) * (1.0 if higher_is_better else -1.0)
+    names = list(table.columns)
+    pairs = posthoc.all_pairs(names)
+    weights = bayes.dirichlet_weights(len(table), samples=samples, seed=seed)
+    wilcoxon = [posthoc.wilcoxon_p(oriented[:, i], oriented[:, j]) for i, j in pairs]
+    adjusted = posthoc.holm(wilcoxon)
+    rows = []
+    for (i, j), w, h in zip(pairs, wilcoxon, adjusted):
+        b = bayes.signed_rank(oriented[:, i], oriented[:, j], rope, weights)
+        rows.append({"a": names[i], "b": names[j], "wilcoxon_p": w, "holm_p": float(h),
+                     "nemenyi_p": float(p_matrix[i, j]),
+                     "bayes": {"left": b.left, "rope": b.rope, "right": b.right}})
+    return rows

@@ -1,0 +1,129 @@
+"""The main job, end to end: suite file -> datasets -> plan -> store -> leaderboard folder."""
+import platform
+import time
+from dataclasses import dataclass
+from importlib import metadata
+from pathlib import Path
+
+from . import __version__
+from . import resamplers as resampler_registry
+from .datasets import load_dataset
+from .errors import LopsidedError, StoreError, SuiteError
+from .report import skipped_summary, write_report
+from .runner import plan, run_plan
+from .specs import parse_method
+from .store import Store, now
+from .suite import load_suite, suite_from_dict
+
+PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2")
+
+
+@dataclass
+class RunResult:
+    out: Path
+    store: Path
+    summary: dict
+    cells: object        # pandas DataFrame of this suite's stored cells
+
+
+def versions():
+    found = {"python": platform.python_version(), "lopsided": __version__}
+    for name in PACKAGES:
+        found[name] = metadata.version(name)
+    return found
+
+
+def extra_resamplers(texts):
+    """--add-resampler values -> MethodSpecs, each checked to resolve."""
+    specs = []
+    for text in texts:
+        spec = parse_method(text)
+        try:
+            resampler_registry.resolve(spec.name)
+        except LopsidedError as exc:
+            raise SuiteError("--add-resampler", text, str(exc)) from None
+        specs.append(spec)
+    return specs
+
+
+def load_all(suite):
+    return {reference: load_dataset(reference) for reference in suite.datasets}
+
+
+def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_failed=False, progress=True,
+              alpha=0.05, rope=0.01):
+    """Run a suite file (or Suite) and write its leaderboard; stored cells are reused."""
+    suite = load_suite(path) if not hasattr(path, "protocol") else path
+    suite = suite.with_resamplers(extra_resamplers(add_resamplers))
+    if not isinstance(jobs, int) or jobs < 1:
+        raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
+    out = Path(out or Path("results") / suite.name)
+    store_path = Path(store or suite.store or out / "store.sqlite")
+    started, clock = now(), time.perf_counter()
+    datasets = load_all(suite)
+    full = plan(suite, datasets)
+    db = Store(store_path)
+    try:
+        run_id = db.begin_run(suite, full.keys)
+        counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
+        cells = db.cells(full.keys)
+        summary = _summary(suite, datasets, full, cells, counts, started, time.perf_counter() - clock, jobs)
+        db.finish_run(run_id, {**summary, "skipped": full.skipped})
+    finally:
+        db.close()
+    write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
+    return RunResult(out, store_path, summary, cells)
+
+
+def _summary(suite, datasets, full, cells, counts, started, seconds, jobs):
+    ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
+    return {
+        "suite": suite.name, "suite_fingerprint": suite.fingerprint, "suite_file": suite.source,
+        "seed": suite.seed, "started_at": started, "finished_at": now(), "seconds": round(seconds, 2),
+        "jobs": jobs, "versions": versions(),
+        "cells": {"planned": counts["planned"], "ok": ok, "failed": len(cells) - ok,
+                  "missing": counts["planned"] - len(cells), "reused": counts["reused"],
+                  "computed": counts["computed"], "failed_now": counts["failed"],
+                  "skipped_points": counts["skipped_points"]},
+        "skipped": skipped_summary(full.skipped),
+        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum} for ref, data in datasets.items()],
+    }
+
+
+def rebuild_report(target, out=None, alpha=0.05, rope=0.01):
+    """Rebuild a leaderboard folder from stored cells: ``target`` is a suite file or a store."""
+    target = Path(target)
+    if target.suffix == ".toml":
+        suite = load_suite(target)
+        out = Path(out or Path("results") / suite.name)
+        store_path = Path(suite.store or out / "store.sqlite")
+        if not store_path.is_file():
+            raise StoreError(f"{store_path}: no result store for suite {suite.name!r}; run it first")
+        datasets = load_all(suite)
+        full = plan(suite, datasets)
+        db = Store(store_path, create=False)
+        cells = db.cells(full.keys)
+        stored = db.known_keys(full.keys)
+        counts = {"planned": len(full.keys), "reused": len(stored), "computed": 0, "failed": 0,
+                  "skipped_points": len(full.skipped)}
+        summary = _summary(suite, datasets, full, cells, counts, now(), 0.0, 0)
+        skipped = full.skipped
+    else:
+        db = Store(target, create=False)
+        suite_dict, summary, keys = db.latest_run()
+        suite = suite_from_dict(_as_raw(suite_dict), source=str(target))
+        out = Path(out or Path("results") / suite.name)
+        cells = db.cells(keys)
+        skipped = summary.pop("skipped", [])
+        summary["skipped"] = skipped_summary(skipped)
+    db.close()
+    write_report(out, suite.as_dict(), cells, skipped, summary, alpha=alpha, rope=rope)
+    return out
+
+
+def _as_raw(suite_dict):
+    """A stored suite dict back into suite-file shape."""
+    raw = dict(suite_dict)
+    for kind in ("resamplers", "learners", "preprocessing"):
+        raw[kind] = [{"name": s["name"], "params": s["params"], "label": s["label"]} for s in raw[kind]]
+    return raw

@@ -1,0 +1,160 @@
+"""The `lopsided` command. Every LopsidedError is caught here once: message on stderr, exit 2."""
+import argparse
+import sys
+import traceback
+
+import pandas as pd
+
+from . import learners, preprocessing, resamplers
+from .errors import LopsidedError
+
+LIST_KINDS = ("datasets", "resamplers", "learners", "metrics", "preprocessing")
+
+
+def parser():
+    top = argparse.ArgumentParser(prog="lopsided", description="Benchmark resamplers x learners on imbalanced data.")
+    top.add_argument("--debug", action="store_true", help="show the full traceback on errors")
+    sub = top.add_subparsers(dest="command", required=True)
+
+    run = sub.add_parser("run", help="run a suite file and write its leaderboard folder")
+    run.add_argument("suite", help="suite file (TOML), e.g. bench/quick.toml")
+    run.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
+    run.add_argument("--out", help="leaderboard folder (default results/<suite name>)")
+    run.add_argument("--store", help="result store (default <out>/store.sqlite)")
+    run.add_argument("--add-resampler", action="append", default=[], metavar="SPEC",
+                     help="extra resampler: name or package.module:Name[?param=value]; repeatable")
+    run.add_argument("--retry-failed", action="store_true", help="recompute cells stored as failed")
+    run.add_argument("--quiet", action="store_true", help="no progress bar")
+    _stats_options(run)
+
+    report = sub.add_parser("report", help="rebuild a leaderboard folder from stored cells, no refitting")
+    report.add_argument("source", help="suite file (TOML) or result store (.sqlite)")
+    report.add_argument("--out", help="leaderboard folder (default results/<suite name>)")
+    _stats_options(report)
+
+    rank = sub.add_parser("rank", help="rank your own score table: stats.json, CD plot, ranking.md")
+    rank.add_argument("scores", help="CSV: wide (dataset column, one column per method) or long (dataset, method, score)")
+    rank.add_argument("--out", required=True, help="folder to write")
+    rank.add_argument("--lower-is-better", action="store_true", help="smaller scores are better (errors, losses)")
+    rank.add_argument("--control", help="method to test the others against (Bonferroni-Dunn)")
+    rank.add_argument("--missing", default="drop-datasets", choices=("drop-datasets", "drop-methods"),
+                      help="what to do with missing scores (default: drop incomplete datasets)")
+    rank.add_argument("--metric", default="score", help="name of the score, for titles")
+    _stats_options(rank)
+
+    listing = sub.add_parser("list", help="what is available")
+    listing.add_argument("kind", choices=LIST_KINDS)
+
+    data = sub.add_parser("datasets", help="inspect datasets")
+    data_sub = data.add_subparsers(dest="action", required=True)
+    data_list = data_sub.add_parser("list", help="meta-features of datasets")
+    data_list.add_argument("--suite", help="the datasets of this suite file (default: the built-in examples)")
+    data_show = data_sub.add_parser("show", help="one dataset in full")
+    data_show.add_argument("reference", help="dataset reference, e.g. sklearn:wine?positive=2")
+    return top
+
+
+def _stats_options(command):
+    command.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
+    command.add_argument("--rope", type=float, default=0.01,
+                         help="region of practical equivalence for the Bayesian test, in score units (default 0.01)")
+
+
+def main(argv=None):
+    args = parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args) or 0
+    except LopsidedError as exc:
+        if args.debug:
+            traceback.print_exc()
+        print(f"lopsided: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("lopsided: interrupted; finished work units are stored, run again to resume", file=sys.stderr)
+        return 130
+
+
+def _run(args):
+    from .benchmark import run_suite
+    result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
+                       add_resamplers=args.add_resampler, retry_failed=args.retry_failed,
+                       progress=not args.quiet, alpha=args.alpha, rope=args.rope)
+    cells = result.summary["cells"]
+    print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
+          f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "
+          f"{result.summary['seconds']:.1f} s")
+    _print_top(result.out)
+    print(f"leaderboard: {result.out}/index.html and {result.out}/leaderboard.md; store: {result.store}")
+
+
+def _print_top(out, rows=8):
+    import json
+    stats = json.loads((out / "stats.json").read_text())
+    if not stats:
+        print("no comparison could be made (see leaderboard.md)")
+        return
+    point, metrics = next(iter(stats.items()))
+    metric, views = next(iter(metrics.items()))
+    view = views.get("all combinations") or next(iter(views.values()))
+    ranks = list(view["average_ranks"].items())
+    table = pd.DataFrame(ranks[:rows], columns=["method", "average rank"])
+    table.index = range(1, len(table) + 1)
+    print(f"\n{metric} at {point}, {view['n_datasets']} datasets "
+          f"(Friedman p = {view['friedman']['p']:.3g}, Nemenyi CD = {view['nemenyi']['cd']:.2f}):")
+    print(table.to_string(float_format=lambda v: f"{v:.2f}"), "\n")
+
+
+def _report(args):
+    from .benchmark import rebuild_report
+    out = rebuild_report(args.source, out=args.out, alpha=args.alpha, rope=args.rope)
+    print(f"leaderboard rebuilt from stored cells: {out}/index.html")
+
+
+def _rank(args):
+    from .ranking import rank_file
+    out = rank_file(args.scores, args.out, higher_is_better=not args.lower_is_better, alpha=args.alpha,
+                    control=args.control, rope=args.rope, missing=args.missing, metric=args.metric)
+    print(f"wrote {out}/stats.json, {out}/ranking.md, {out}/cd.svg and {out}/cd.png")
+    print((out / "ranking.md").read_text().split("\n## ", 1)[0])
+
+
+def _list(args):
+    from . import datasets, metrics
+    rows = {
+        "datasets": datasets.available,
+        "resamplers": resamplers.describe,
+        "learners": learners.describe,
+        "metrics": lambda: list(metrics.METRICS.items()),
+        "preprocessing": preprocessing.describe,
+    }[args.kind]()
+    width = max(len(name) for name, _ in rows)
+    for name, text in rows:
+        print(f"{name.ljust(width)}  {text}")
+
+
+def _datasets(args):
+    from .datasets import load_dataset
+    if args.action == "show":
+        data = load_dataset(args.reference)
+        for key, value in {**data.meta(), "checksum": data.checksum, "citation": data.provenance.citation,
+                           "licence": data.provenance.licence, "note": data.provenance.note,
+                           "class counts": dict(zip(data.classes, data.counts.tolist()))}.items():
+            print(f"{key:>16}: {value}")
+        return
+    if args.suite:
+        from .suite import load_suite
+        references = load_suite(args.suite).datasets
+    else:
+        references = ["sklearn:digits?positive=0", "sklearn:wine?positive=2", "sklearn:iris?positive=1",
+                      "spectra:serum", "spectra:polymers"]
+    table = pd.DataFrame([{"reference": r, **load_dataset(r).meta()} for r in references])
+    columns = ["reference", "n", "d", "classes", "minority_count", "majority_count", "imbalance_ratio", "groups",
+               "family", "source"]
+    with pd.option_context("display.width", 200, "display.max_colwidth", 48):
+        print(table[columns].to_string(index=False))
+
+
+COMMANDS = {"run": _run, "report": _report, "rank": _rank, "list": _list, "datasets": _datasets}
+
+if __name__ == "__main__":
+    sys.exit(main())

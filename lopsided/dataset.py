@@ -1,0 +1,88 @@
+"""The Dataset object every adapter returns, and its derived meta-features."""
+import hashlib
+from dataclasses import dataclass, field
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class Provenance:
+    source: str                  # where the data came from (URL, package, generator)
+    version: str = ""
+    citation: str = ""
+    licence: str = ""
+    family: str = ""             # base data set it was cut from (ecoli, digits, ...)
+    note: str = ""               # e.g. "imbalance induced by one-vs-rest"
+
+
+@dataclass(frozen=True, eq=False)
+class Dataset:
+    """Features ``X`` (float, n x d), integer class codes ``y`` (0..k-1) and what they mean.
+
+    ``groups`` holds donor / specimen / particle ids for grouped splitting;
+    ``axis`` the feature axis (wavenumbers in cm-1 for spectra).
+    """
+
+    name: str
+    X: np.ndarray
+    y: np.ndarray
+    classes: tuple
+    provenance: Provenance
+    groups: np.ndarray | None = None
+    axis: np.ndarray | None = None
+    feature_names: tuple = field(default=())
+
+    def __post_init__(self):
+        if self.X.ndim != 2 or len(self.X) != len(self.y):
+            raise ValueError(f"{self.name}: X must be 2-D with one row per label")
+        if self.groups is not None and len(self.groups) != len(self.y):
+            raise ValueError(f"{self.name}: groups must have one entry per row")
+
+    @property
+    def counts(self):
+        """Samples per class code."""
+        return np.bincount(self.y, minlength=len(self.classes))
+
+    @property
+    def minority(self):
+        """Code of the rarest class (decided by counts, never by the label's wording)."""
+        return int(np.argmin(self.counts))
+
+    @property
+    def majority(self):
+        return int(np.argmax(self.counts))
+
+    @property
+    def imbalance_ratio(self):
+        """Majority count over minority count (>= 1)."""
+        counts = self.counts
+        return float(counts.max() / counts.min())
+
+    @property
+    def checksum(self):
+        """sha256 of the numbers themselves: X, y, groups (what a result depends on)."""
+        digest = hashlib.sha256()
+        digest.update(np.ascontiguousarray(self.X, dtype=np.float64).tobytes())
+        digest.update(np.ascontiguousarray(self.y, dtype=np.int64).tobytes())
+        if self.groups is not None:
+            digest.update(np.asarray(self.groups).astype(str).astype("U").tobytes())
+        return digest.hexdigest()
+
+    def meta(self):
+        """Derived meta-features, as one flat dict (a row of `lopsided datasets list`)."""
+        counts = self.counts
+        return {
+            "name": self.name,
+            "n": int(len(self.y)),
+            "d": int(self.X.shape[1]),
+            "classes": len(self.classes),
+            "minority": str(self.classes[self.minority]),
+            "minority_count": int(counts.min()),
+            "majority_count": int(counts.max()),
+            "imbalance_ratio": round(self.imbalance_ratio, 3),
+            "minority_share": round(float(counts.min() / counts.sum()), 4),
+            "groups": 0 if self.groups is None else int(len(np.unique(self.groups))),
+            "missing": int(np.isnan(self.X).sum()),
+            "family": self.provenance.family,
+            "source": self.provenance.source,
+        }

@@ -1,0 +1,33 @@
+"""Dataset adapters: one per reference scheme, all returning a `Dataset`.
+
+``ADAPTERS`` maps a scheme to (loader, one-line description). A loader takes a parsed
+`Reference` and returns a `Dataset` or raises `DatasetError`.
+"""
+from functools import lru_cache
+
+from ..errors import DatasetError, unknown
+from ..specs import parse_reference
+from . import bundled, files, spectra
+
+ADAPTERS = {
+    "sklearn": (bundled.load, "scikit-learn's bundled toy sets, one-vs-rest with ?positive= (smoke tests only)"),
+    "spectra": (spectra.load, "synthetic mid-infrared spectra with donors/particles: " + ", ".join(spectra.PRESETS)),
+    "file": (files.load, "your own CSV table: ?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]"),
+}
+
+
+@lru_cache(maxsize=32)
+def load_dataset(reference):
+    """'sklearn:wine?positive=2' -> Dataset. Results are cached per process (datasets are immutable)."""
+    ref = parse_reference(reference)
+    if ref.scheme not in ADAPTERS:
+        raise DatasetError(f"{reference}: {unknown('dataset scheme', ref.scheme, ADAPTERS)}")
+    return ADAPTERS[ref.scheme][0](ref)
+
+
+def available():
+    """Rows of (reference example, description) for `lopsided list datasets`."""
+    rows = [(f"sklearn:{name}?positive=CLASS", text) for name, (_, text) in bundled.LOADERS.items()]
+    rows += [(f"spectra:{name}", text) for name, (_, _, text) in spectra.PRESETS.items()]
+    rows.append(("file:PATH.csv?label=COLUMN", ADAPTERS["file"][1]))
+    return rows

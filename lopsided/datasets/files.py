@@ -1,0 +1,71 @@
+"""``file:PATH?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]``: a user's own table.
+
+CSV (any delimiter pandas sniffs from the extension: .csv, .tsv) with one label column;
+every other column must be numeric unless dropped. Missing values stay NaN.
+"""
+import hashlib
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..dataset import Dataset, Provenance
+from ..errors import DatasetError, did_you_mean
+from .labels import encode
+
+ALLOWED = {"label", "group", "positive", "drop"}
+
+
+def load(ref):
+    path = Path(ref.body)
+    extra = set(ref.params) - ALLOWED
+    if extra:
+        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    if not path.is_file():
+        raise DatasetError(f"{path}: no such file")
+    table = _read(path)
+    label = ref.params.get("label")
+    if label is None:
+        raise DatasetError(f"{ref.text}: say which column holds the class, e.g. ?label=class")
+    _require_columns(path, table, [label, ref.params.get("group")])
+    dropped = [c for c in str(ref.params.get("drop", "")).split(",") if c]
+    _require_columns(path, table, dropped)
+    groups = table[ref.params["group"]].astype(str).to_numpy() if "group" in ref.params else None
+    features = table.drop(columns=[c for c in [label, ref.params.get("group"), *dropped] if c])
+    non_numeric = [c for c in features.columns if not pd.api.types.is_numeric_dtype(features[c])]
+    if non_numeric:
+        raise DatasetError(f"{path}: column {non_numeric[0]!r} is not numeric; drop it with ?drop={non_numeric[0]}")
+    if table[label].isna().any():
+        row = int(np.flatnonzero(table[label].isna().to_numpy())[0]) + 2
+        raise DatasetError(f"{path}: line {row}: empty label in column {label!r}")
+    y, classes = encode(table[label].to_numpy(), ref.params.get("positive"), where=f"{path}: column {label!r}")
+    return Dataset(
+        name=path.stem,
+        X=features.to_numpy(dtype=np.float64),
+        y=y,
+        classes=classes,
+        groups=groups,
+        provenance=Provenance(source=str(path), version=_sha256(path)[:16], family=path.stem),
+        feature_names=tuple(str(c) for c in features.columns),
+    )
+
+
+def _read(path):
+    try:
+        table = pd.read_csv(path, sep="\t" if path.suffix.lower() == ".tsv" else ",")
+    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
+        raise DatasetError(f"{path}: not a readable CSV table ({exc})") from None
+    if table.empty:
+        raise DatasetError(f"{path}: the table has no rows")
+    return table
+
+
+def _require_columns(path, table, columns):
+    for column in columns:
+        if column is not None and column not in table.columns:
+            hint = did_you_mean(column, table.columns)
+            raise DatasetError(f"{path}: no column {column!r}{hint}; columns: {', '.join(map(str, table.columns))}")
+
+
+def _sha256(path):
+    return hashlib.sha256(path.read_bytes()).hexdigest()

@@ -1,0 +1,84 @@
+"""Learner registry: named scikit-learn classifiers with our defaults, or any import path.
+
+Learners that depend on feature scale (logistic regression, k-NN, SVM) carry their own
+standardisation, fitted on the (resampled) training set only.
+"""
+from sklearn.base import clone
+from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
+from sklearn.ensemble import AdaBoostClassifier, HistGradientBoostingClassifier, RandomForestClassifier
+from sklearn.linear_model import LogisticRegression
+from sklearn.neighbors import KNeighborsClassifier
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import StandardScaler
+from sklearn.svm import SVC
+from sklearn.tree import DecisionTreeClassifier
+
+from .errors import MethodError, unknown
+from .plugins import build, import_object
+
+
+def _scaled(model):
+    return make_pipeline(StandardScaler(), model)
+
+
+def adaboost_stumps(n_estimators=100, learning_rate=1.0):
+    return AdaBoostClassifier(DecisionTreeClassifier(max_depth=1), n_estimators=n_estimators,
+                              learning_rate=learning_rate)
+
+
+def random_forest(n_estimators=100, max_features="sqrt", min_samples_leaf=1):
+    return RandomForestClassifier(n_estimators=n_estimators, max_features=max_features,
+                                  min_samples_leaf=min_samples_leaf, n_jobs=1)
+
+
+def logistic_regression(C=1.0):
+    return _scaled(LogisticRegression(C=C, max_iter=2000))
+
+
+def linear_discriminant(shrinkage="auto"):
+    return LinearDiscriminantAnalysis(solver="lsqr", shrinkage=None if shrinkage == "none" else shrinkage)
+
+
+def hist_gradient_boosting(max_iter=100, learning_rate=0.1):
+    return HistGradientBoostingClassifier(max_iter=max_iter, learning_rate=learning_rate)
+
+
+def knn(n_neighbors=5):
+    return _scaled(KNeighborsClassifier(n_neighbors=n_neighbors))
+
+
+def svm_rbf(C=1.0, gamma="scale"):
+    return _scaled(SVC(C=C, gamma=gamma))
+
+
+LEARNERS = {
+    "adaboost-stumps": (adaboost_stumps, "AdaBoost (SAMME) over depth-1 trees, 100 rounds (Freund & Schapire 1997)"),
+    "random-forest": (random_forest, "random forest, 100 trees, sqrt(d) features per split (Breiman 2001)"),
+    "logistic-regression": (logistic_regression, "standardised L2 logistic regression, C = 1"),
+    "linear-discriminant": (linear_discriminant, "linear discriminant analysis with Ledoit-Wolf shrinkage"),
+    "hist-gradient-boosting": (hist_gradient_boosting, "histogram gradient boosting, 100 iterations (Ke et al. 2017)"),
+    "knn": (knn, "standardised k-nearest neighbours, k = 5"),
+    "svm-rbf": (svm_rbf, "standardised support vector machine, RBF kernel, C = 1"),
+}
+
+
+def resolve(name):
+    if ":" in name:
+        return import_object(name)
+    if name in LEARNERS:
+        return LEARNERS[name][0]
+    raise MethodError(unknown("learner", name, LEARNERS))
+
+
+def make_learner(spec, random_state=None):
+    """A fresh, unfitted classifier for ``spec``; every ``random_state`` inside it set to the seed."""
+    model = build("learner", spec.title, resolve(spec.name), dict(spec.params))
+    if not (hasattr(model, "fit") and hasattr(model, "predict") and hasattr(model, "get_params")):
+        raise MethodError(f"learner {spec.title}: is not a scikit-learn classifier (needs fit, predict, get_params)")
+    model = clone(model)
+    seeds = {k: random_state for k in model.get_params(deep=True) if k.endswith("random_state")}
+    return model.set_params(**seeds) if seeds else model
+
+
+def describe():
+    return [(name, text) for name, (_, text) in LEARNERS.items()]

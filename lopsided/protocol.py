@@ -1,0 +1,102 @@
+"""Deterministic splits and nested sweep subsets.
+
+Within one repeat, the data is cut into k stratified folds (grouped when the dataset has
+groups: no group on both sides). For each fold the test part stays fixed and every
+protocol point (imbalance ratio x training size) takes a *prefix* of one fixed random
+order of each class's training rows. Prefixes of one order are nested, so a smaller
+training set is a subset of a larger one at the same ratio, and a trend along a sweep
+reflects size or ratio, not a fresh random draw.
+
+Ratio rule: the ratio is largest class : rarest class (the dataset's minority). Other
+classes keep their natural proportions to the largest class. 'natural' keeps every class
+in its natural proportion.
+"""
+import hashlib
+import json
+from dataclasses import dataclass
+
+import numpy as np
+from sklearn.model_selection import StratifiedGroupKFold, StratifiedKFold
+
+
+def derive_seed(*parts):
+    """A 32-bit seed from any JSON-able parts (stable across runs, machines and Python versions)."""
+    text = json.dumps(parts, sort_keys=True, default=str)
+    return int.from_bytes(hashlib.sha256(text.encode()).digest()[:4], "little")
+
+
+def point_label(value):
+    """'natural' / 'all' stay; numbers print without a trailing .0."""
+    return value if isinstance(value, str) else f"{value:g}"
+
+
+def fold_splits(dataset, folds, seed):
+    """[(train rows, test rows)] for one repeat: stratified, grouped when the data has groups."""
+    if dataset.groups is not None:
+        splitter = StratifiedGroupKFold(n_splits=folds, shuffle=True, random_state=seed)
+        pieces = splitter.split(dataset.X, dataset.y, groups=dataset.groups)
+    else:
+        splitter = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed)
+        pieces = splitter.split(dataset.X, dataset.y)
+    return [(np.sort(train), np.sort(test)) for train, test in pieces]
+
+
+@dataclass(frozen=True)
+class Infeasible:
+    reason: str
+
+
+def class_orders(y, train, seed):
+    """{class: that class's training rows in one fixed random order}."""
+    rng = np.random.default_rng(seed)
+    return {int(c): rng.permutation(train[y[train] == c]) for c in np.unique(y[train])}
+
+
+def point_counts(counts, minority, ratio, size, min_minority):
+    """Rows per class for one protocol point, or Infeasible with the reason.
+
+    ``counts``: {class: rows available in the training part}.
+    """
+    wanted = _point_counts(counts, minority, ratio, size)
+    if isinstance(wanted, Infeasible):
+        return wanted
+    if wanted.get(minority, 0) < min_minority:
+        return Infeasible(f"only {wanted.get(minority, 0)} minority rows (< min_minority={min_minority})")
+    if any(n < 1 for n in wanted.values()):
+        return Infeasible("a class would have no training rows")
+    return wanted
+
+
+def _point_counts(counts, minority, ratio, size):
+    total = sum(counts.values())
+    if ratio == "natural":
+        if size == "all":
+            return dict(counts)
+        if size > total:
+            return Infeasible(f"size {size} exceeds the {total} training rows")
+        return _fill(counts, {c: size * n / total for c, n in counts.items()}, size)
+    largest = max(counts.values())
+    weight = {c: ratio * n / largest for c, n in counts.items() if c != minority}
+    if size == "all":
+        m = min(counts[minority], int(np.floor(largest / ratio)))
+    else:
+        m = int(round(size / (1 + sum(weight.values()))))
+    wanted = {minority: m, **{c: m * w for c, w in weight.items()}}
+    return _fill(counts, wanted, size if size != "all" else None)
+
+
+def _fill(counts, wanted, target):
+    """Round wanted counts; the largest class absorbs rounding so the total hits ``target``."""
+    rounded = {c: int(round(v)) for c, v in wanted.items()}
+    if target is not None:
+        biggest = max(rounded, key=lambda c: (wanted[c], -c))
+        rounded[biggest] += target - sum(rounded.values())
+    for c, n in rounded.items():
+        if n > counts[c]:
+            return Infeasible(f"needs {n} rows of class {c}, the training part has {counts[c]}")
+    return rounded
+
+
+def point_rows(orders, counts_wanted):
+    """Training rows for a point: the first n rows of each class's fixed order (sorted)."""
+    return np.sort(np.concatenate([orders[c][:n] for c, n in counts_wanted.items()]))

@@ -1,0 +1,65 @@
+"""`lopsided rank`: statistics and a CD plot for a score table people bring themselves."""
+import json
+from pathlib import Path
+
+import pandas as pd
+
+from .analysis import compare
+from .analysis.cdplot import draw
+from .analysis.words import claims
+from .errors import DatasetError
+from .report import CAUTION, ENV
+
+LONG_COLUMNS = ("dataset", "method", "score")
+
+
+def read_scores(path):
+    """Wide CSV (first column = dataset, one column per method) or long CSV (dataset, method, score)."""
+    path = Path(path)
+    if not path.is_file():
+        raise DatasetError(f"{path}: no such file")
+    try:
+        table = pd.read_csv(path)
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+        raise DatasetError(f"{path}: not a readable CSV table ({exc})") from None
+    lowered = {c.lower().strip(): c for c in table.columns}
+    if all(c in lowered for c in LONG_COLUMNS):
+        d, m, s = (lowered[c] for c in LONG_COLUMNS)
+        twice = table.duplicated([d, m])
+        if twice.any():
+            row = table[twice].iloc[0]
+            raise DatasetError(f"{path}: dataset {row[d]!r} has two scores for method {row[m]!r}")
+        matrix = table.pivot(index=d, columns=m, values=s)
+    else:
+        if table.shape[1] < 3:
+            raise DatasetError(f"{path}: need a dataset column and at least two method columns, "
+                               f"or long columns {', '.join(LONG_COLUMNS)}")
+        matrix = table.set_index(table.columns[0])
+        if matrix.index.duplicated().any():
+            raise DatasetError(f"{path}: dataset {matrix.index[matrix.index.duplicated()][0]!r} appears twice")
+    numeric = matrix.apply(pd.to_numeric, errors="coerce")
+    bad = numeric.isna() & matrix.notna()
+    if bad.any().any():
+        method = bad.columns[bad.any()][0]
+        dataset = bad.index[bad[method]][0]
+        raise DatasetError(f"{path}: score of {method!r} on {dataset!r} is not a number: {matrix.loc[dataset, method]!r}")
+    return numeric
+    return matrix
+
+
+def rank(matrix, **options):
+    """Notebook entry: a datasets x methods DataFrame -> Comparison (see lopsided.analysis.compare)."""
+    return compare(matrix, **options)
+
+
+def rank_file(path, out, metric="score", **options):
+    """Write stats.json, cd.svg, cd.png and ranking.md for a score file; returns the folder."""
+    result = compare(read_scores(path), metric=metric, **options)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    draw(result, str(out / "cd"))
+    (out / "stats.json").write_text(json.dumps(result.as_json(), indent=1), encoding="utf-8")
+    text = ENV.get_template("ranking.md.j2").render(result=result, claims=claims(result), caution=CAUTION,
+                                                     source=Path(path).name)
+    (out / "ranking.md").write_text(text, encoding="utf-8")
+    return out

@@ -1,0 +1,152 @@
+"""The leaderboard folder: leaderboard.md, index.html, scores.csv, cells.csv, stats.json,
+manifest.json and figures/, rebuilt from stored cells alone (no refitting).
+
+Files are written into a temporary folder beside the target and moved into place one by
+one, so a failure never leaves a half-written file behind.
+"""
+import json
+import os
+import shutil
+import tempfile
+from pathlib import Path
+
+import jinja2
+import pandas as pd
+
+from .. import __version__
+from ..analysis import AnalysisError, compare
+from ..analysis.cdplot import draw
+from ..analysis.words import claims
+from ..metrics import METRICS
+from ..specs import MethodSpec
+from .figures import sweep
+from .tables import COMBINED, method_matrix, points_of, scores_table, with_titles
+
+CAUTION = ("Benchmark rankings are research evidence about methods on these datasets. They are not a "
+           "validation of any diagnostic, screening or safety method; such use is governed by local "
+           "regulation and licensed professional practice.")
+ENV = jinja2.Environment(loader=jinja2.PackageLoader("lopsided.report", "templates"),
+                         autoescape=jinja2.select_autoescape(["html"]), trim_blocks=True, lstrip_blocks=True)
+
+
+def _titles(suite):
+    return {kind[:-1]: {_canonical(s): s["label"] for s in suite[kind]} for kind in ("resamplers", "learners")}
+
+
+def _canonical(spec):
+    return MethodSpec(spec["name"], spec["params"]).canonical
+
+
+def _slug(*parts):
+    return "-".join(str(p).replace(" ", "").replace("/", "_").replace("+", "") for p in parts)
+
+
+def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
+    """Comparisons per protocol point: all combinations and per learner, CD plots written to figures_dir."""
+    sections, stats = [], {}
+    for index, (ratio, size) in enumerate(points_of(scores, suite["protocol"])):
+        point = f"ratio={ratio}, size={size}"
+        metrics = suite["metrics"] if index == 0 else suite["metrics"][:1]
+        learners = [s["label"] for s in suite["learners"]]
+        for metric in metrics:
+            for learner in [None, *learners] if metric == suite["metrics"][0] else [None]:
+                view = "all combinations" if learner is None else f"resamplers with {learner}"
+                matrix = method_matrix(scores, metric, ratio, size, learner)
+                entry = {"point": point, "metric": metric, "view": view, "learner": learner}
+                try:
+                    result = compare(matrix, metric=metric, alpha=alpha, rope=rope)
+                except AnalysisError as exc:
+                    entry["note"] = str(exc)
+                    sections.append(entry)
+                    continue
+                stem = figures_dir / _slug("cd", metric, ratio, size, learner or "all")
+                draw(result, str(stem), title=f"{metric} at {point}: {view}")
+                entry.update(result=result, figure=f"figures/{stem.name}.svg", claims=claims(result),
+                             table=_leaderboard_rows(result, scores, ratio, size, learner, suite["metrics"]))
+                stats.setdefault(point, {}).setdefault(metric, {})[view] = result.as_json()
+                sections.append(entry)
+    return sections, stats
+
+
+def _leaderboard_rows(result, scores, ratio, size, learner, metrics):
+    rows = scores[(scores["ratio"] == ratio) & (scores["size"] == size)]
+    if learner is not None:
+        rows = rows[rows["learner"] == learner]
+    key = rows["resampler"] if learner is not None else rows["resampler"] + COMBINED + rows["learner"]
+    rows = rows[key.isin(result.methods) & rows["dataset"].isin(result.datasets)]
+    key = key.loc[rows.index]
+    means = rows.groupby(key)[[f"{m}_mean" for m in metrics]].mean()
+    out = []
+    for place, (method, rank) in enumerate(result.average_ranks.items(), start=1):
+        low, high = result.rank_intervals.loc[method]
+        out.append({"place": place, "method": method, "rank": rank, "low": low, "high": high,
+                    "means": [means.loc[method, f"{m}_mean"] for m in metrics]})
+    return out
+
+
+def _sweeps(suite, scores, figures_dir):
+    paths = []
+    order = [s["label"] for s in suite["resamplers"]]
+    metric = suite["metrics"][0]
+    for axis, fixed_values in (("ratio", suite["protocol"]["sizes"]), ("size", suite["protocol"]["ratios"])):
+        for fixed in fixed_values:
+            label = fixed if isinstance(fixed, str) else f"{fixed:g}"
+            made = sweep(scores, metric, axis, label, order, str(figures_dir / _slug("sweep", axis, label)))
+            if made:
+                paths.append({"axis": axis, "fixed": label, "figure": f"figures/{Path(made[0]).name}"})
+    return paths
+
+
+def skipped_summary(skipped):
+    """Infeasible points grouped by dataset and point, with how many folds and the first reason."""
+    if not skipped:
+        return []
+    table = pd.DataFrame(skipped)
+    grouped = table.groupby(["dataset", "ratio", "size"], sort=False)
+    return [{"dataset": d, "ratio": r, "size": s, "folds": len(g), "reason": g["reason"].iloc[0]}
+            for (d, r, s), g in grouped]
+
+
+def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
+    """Write the leaderboard folder for ``suite`` (a suite dict) from its stored ``cells``."""
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    staging = Path(tempfile.mkdtemp(prefix=".report-", dir=out))
+    try:
+        (staging / "figures").mkdir()
+        titled = with_titles(cells, _titles(suite))
+        scores = scores_table(titled)
+        sections, stats = build_sections(suite, scores, staging / "figures", alpha, rope)
+        context = {
+            "suite": suite, "summary": summary, "caution": CAUTION, "sections": sections,
+            "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
+            "failures": _failures(titled), "metric_text": METRICS, "version": __version__,
+            "svg": lambda rel: (staging / rel).read_text(encoding="utf-8"),
+        }
+        (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context), encoding="utf-8")
+        (staging / "index.html").write_text(ENV.get_template("index.html.j2").render(**context), encoding="utf-8")
+        scores.to_csv(staging / "scores.csv", index=False)
+        titled.sort_values(["dataset", "ratio", "size", "repeat", "fold", "resampler", "learner"]).to_csv(
+            staging / "cells.csv", index=False)
+        (staging / "stats.json").write_text(json.dumps(stats, indent=1), encoding="utf-8")
+        (staging / "manifest.json").write_text(json.dumps(summary, indent=1, default=str), encoding="utf-8")
+        _move_into_place(staging, out)
+    finally:
+        shutil.rmtree(staging, ignore_errors=True)
+    return out
+
+
+def _failures(cells):
+    failed = cells[cells["status"] != "ok"]
+    if failed.empty:
+        return []
+    grouped = failed.groupby(["resampler", "learner"], sort=True)
+    return [{"resampler": r, "learner": l, "cells": len(g), "error": g["error"].iloc[0]} for (r, l), g in grouped]
+
+
+def _move_into_place(staging, out):
+    figures = out / "figures"
+    if figures.exists():
+        shutil.rmtree(figures)
+    for item in staging.iterdir():
+        os.replace(item, out / item.name)

@@ -1,0 +1,58 @@
+"""From stored cells to the tables people read: per-combination scores and method matrices."""
+import numpy as np
+import pandas as pd
+
+from ..metrics import METRICS
+from ..protocol import point_label
+
+KEYS = ["dataset", "ratio", "size", "resampler", "learner"]
+COMBINED = " + "
+
+
+def metric_columns(cells):
+    """Metric columns present in the cells table, the registered ones first."""
+    known = [m for m in METRICS if m in cells.columns]
+    return known + sorted(c for c in cells.columns if c.startswith("recall:"))
+
+
+def with_titles(cells, titles):
+    """Replace canonical method specs by the suite's labels."""
+    out = cells.copy()
+    for column in ("resampler", "learner"):
+        out[column] = out[column].map(lambda v: titles.get(column, {}).get(v, v))
+    return out
+
+
+def scores_table(cells):
+    """One row per dataset x point x resampler x learner: mean and std over repeats and folds (ok cells)."""
+    if cells.empty:
+        return pd.DataFrame(columns=KEYS + ["n_cells", "n_failed"])
+    metrics = metric_columns(cells) + ["resample_seconds", "fit_seconds", "predict_seconds"]
+    ok = cells[cells["status"] == "ok"]
+    grouped = ok.groupby(KEYS, sort=True)[metrics]
+    stats = grouped.agg(["mean", "std"])
+    stats.columns = [f"{m}_{s}" for m, s in stats.columns]
+    counts = cells.groupby(KEYS, sort=True)["status"].agg(n_cells="size", n_failed=lambda s: int((s != "ok").sum()))
+    return counts.join(stats, how="left").reset_index()
+
+
+def method_matrix(scores, metric, ratio, size, learner=None):
+    """Datasets x methods matrix of mean ``metric`` at one protocol point.
+
+    Methods are 'resampler + learner' combinations, or resamplers within one ``learner``.
+    A combination with any failed cell on a dataset is missing there (NaN), never averaged over survivors.
+    """
+    rows = scores[(scores["ratio"] == ratio) & (scores["size"] == size)]
+    if learner is not None:
+        rows = rows[rows["learner"] == learner]
+    value = rows[f"{metric}_mean"].where(rows["n_failed"] == 0, np.nan)
+    method = rows["resampler"] if learner is not None else rows["resampler"] + COMBINED + rows["learner"]
+    table = pd.DataFrame({"dataset": rows["dataset"], "method": method, "value": value})
+    return table.pivot(index="dataset", columns="method", values="value")
+
+
+def points_of(scores, protocol):
+    """Protocol points that have scores, in the suite's order."""
+    present = set(zip(scores["ratio"], scores["size"]))
+    points = [(point_label(r), point_label(s)) for r in protocol["ratios"] for s in protocol["sizes"]]
+    return [p for p in points if p in present]

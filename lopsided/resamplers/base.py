@@ -1,0 +1,70 @@
+"""What every built-in resampler shares: input checks, random generators, target class counts."""
+import numpy as np
+
+from ..errors import LopsidedError
+
+
+class ResamplingError(LopsidedError):
+    """A resampler cannot work on this training set (too few samples, one class, ...)."""
+
+
+def check_xy(X, y):
+    """Float 2-D X with finite values and integer y of the same length with at least two classes."""
+    X = np.asarray(X, dtype=np.float64)
+    y = np.asarray(y)
+    if X.ndim != 2 or y.ndim != 1 or len(X) != len(y):
+        raise ResamplingError(f"X must be 2-D and y 1-D of the same length, got {X.shape} and {y.shape}")
+    if not np.isfinite(X).all():
+        raise ResamplingError("X holds NaN or infinite values; impute them in the preprocessing list first")
+    if len(np.unique(y)) < 2:
+        raise ResamplingError("the training set holds one class only; there is nothing to rebalance")
+    return X, y
+
+
+def as_rng(random_state):
+    """None, an int seed or a Generator -> numpy Generator."""
+    if isinstance(random_state, np.random.Generator):
+        return random_state
+    return np.random.default_rng(random_state)
+
+
+def check_balance(balance):
+    if not (isinstance(balance, (int, float)) and 0 < balance <= 1):
+        raise ResamplingError(f"balance={balance!r} must be in (0, 1]: the minority:majority ratio after resampling")
+    return float(balance)
+
+
+def over_targets(y, balance):
+    """{class: extra samples needed} so every class reaches round(balance * largest count).
+
+    Multi-class rule: each smaller class is raised relative to the largest class;
+    classes already at or above the target are left alone.
+    """
+    labels, counts = np.unique(y, return_counts=True)
+    goal = int(round(check_balance(balance) * counts.max()))
+    return {label: goal - count for label, count in zip(labels, counts) if count < goal}
+
+
+def under_targets(y, balance):
+    """{class: samples to keep} so no class exceeds round(smallest count / balance)."""
+    labels, counts = np.unique(y, return_counts=True)
+    cap = int(round(counts.min() / check_balance(balance)))
+    return {label: cap for label, count in zip(labels, counts) if count > cap}
+
+
+def check_resampled(name, X_in, y_in, X_out, y_out):
+    """What a resampler must hand back before any learner sees it; names the rule broken."""
+    X_out, y_out = np.asarray(X_out), np.asarray(y_out)
+    rules = (
+        (X_out.ndim == 2 and y_out.ndim == 1 and len(X_out) == len(y_out),
+         "returns a 2-D X and a 1-D y of the same length"),
+        (X_out.ndim == 2 and X_out.shape[1] == X_in.shape[1],
+         f"keeps the number of features ({X_in.shape[1]})"),
+        (np.issubdtype(X_out.dtype, np.number) and np.isfinite(X_out).all(), "returns finite numbers only"),
+        (np.isin(y_out, np.unique(y_in)).all(), "draws labels only from the input's labels"),
+        (np.isin(np.unique(y_in), y_out).all(), "keeps at least one sample of every class"),
+    )
+    for ok, rule in rules:
+        if not ok:
+            raise ResamplingError(f"resampler {name} broke the rule: output {rule}")
+    return X_out.astype(np.float64, copy=False), y_out.astype(y_in.dtype, copy=False)

@@ -1,0 +1,117 @@
+"""SQLite result store: one row per cell, committed as each work unit finishes.
+
+Rows are written in one transaction per work unit, so an interrupted run leaves only
+whole units behind and the next run resumes from there. Several suites may share a store;
+the ``runs`` table records which cell keys each run planned.
+"""
+import json
+import sqlite3
+from datetime import datetime, timezone
+from pathlib import Path
+
+import pandas as pd
+
+from .errors import StoreError
+
+SCHEMA_VERSION = 1
+CELL_COLUMNS = (
+    ("key", "TEXT PRIMARY KEY"), ("unit_key", "TEXT"), ("dataset", "TEXT"), ("dataset_checksum", "TEXT"),
+    ("preprocessing", "TEXT"), ("ratio", "TEXT"), ("size", "TEXT"), ("repeat", "INTEGER"), ("fold", "INTEGER"),
+    ("resampler", "TEXT"), ("learner", "TEXT"), ("status", "TEXT"), ("error", "TEXT"), ("metrics", "TEXT"),
+    ("n_train", "INTEGER"), ("n_train_minority", "INTEGER"), ("n_resampled", "INTEGER"), ("n_test", "INTEGER"),
+    ("resample_seconds", "REAL"), ("fit_seconds", "REAL"), ("predict_seconds", "REAL"),
+    ("code_version", "TEXT"), ("seed", "INTEGER"), ("finished_at", "TEXT"),
+)
+NAMES = [name for name, _ in CELL_COLUMNS]
+
+
+def now():
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
+class Store:
+    """The cells of every run that wrote to ``path``."""
+
+    def __init__(self, path, create=True):
+        self.path = Path(path)
+        if not create and not self.path.is_file():
+            raise StoreError(f"{self.path}: no such result store")
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        try:
+            self.db = sqlite3.connect(self.path)
+            self.db.execute("PRAGMA journal_mode=WAL")
+            self._migrate()
+        except sqlite3.DatabaseError as exc:
+            raise StoreError(f"{self.path}: not a lopsided result store ({exc})") from None
+
+    def _migrate(self):
+        columns = ", ".join(f"{name} {kind}" for name, kind in CELL_COLUMNS)
+        with self.db:
+            self.db.execute("CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT)")
+            found = self.db.execute("SELECT value FROM meta WHERE key = 'schema'").fetchone()
+            if found and int(found[0]) != SCHEMA_VERSION:
+                raise StoreError(f"{self.path}: store schema {found[0]}, this lopsided reads {SCHEMA_VERSION}")
+            self.db.execute("INSERT OR IGNORE INTO meta VALUES ('schema', ?)", (str(SCHEMA_VERSION),))
+            self.db.execute(f"CREATE TABLE IF NOT EXISTS cells ({columns})")
+            self.db.execute("CREATE TABLE IF NOT EXISTS runs (run_id INTEGER PRIMARY KEY, suite TEXT, "
+                            "fingerprint TEXT, suite_json TEXT, started_at TEXT, finished_at TEXT, "
+                            "summary TEXT)")
+            self.db.execute("CREATE TABLE IF NOT EXISTS run_cells (run_id INTEGER, key TEXT)")
+
+    def close(self):
+        self.db.close()
+
+    def known_keys(self, keys, include_failed=True):
+        """The subset of ``keys`` already stored (failed cells too, unless asked not to)."""
+        found = set()
+        keys = list(keys)
+        status = "" if include_failed else " AND status = 'ok'"
+        for start in range(0, len(keys), 500):
+            chunk = keys[start:start + 500]
+            marks = ",".join("?" * len(chunk))
+            rows = self.db.execute(f"SELECT key FROM cells WHERE key IN ({marks}){status}", chunk)
+            found.update(row[0] for row in rows)
+        return found
+
+    def write_unit(self, rows):
+        """Insert (or replace) one work unit's cells in one transaction."""
+        marks = ",".join("?" * len(NAMES))
+        values = [tuple(_cell_value(row, name) for name in NAMES) for row in rows]
+        with self.db:
+            self.db.executemany(f"INSERT OR REPLACE INTO cells VALUES ({marks})", values)
+
+    def begin_run(self, suite, keys):
+        with self.db:
+            cursor = self.db.execute(
+                "INSERT INTO runs (suite, fingerprint, suite_json, started_at) VALUES (?, ?, ?, ?)",
+                (suite.name, suite.fingerprint, json.dumps(suite.as_dict(), default=str), now()))
+            run_id = cursor.lastrowid
+            self.db.executemany("INSERT INTO run_cells VALUES (?, ?)", [(run_id, k) for k in keys])
+        return run_id
+
+    def finish_run(self, run_id, summary):
+        with self.db:
+            self.db.execute("UPDATE runs SET finished_at = ?, summary = ? WHERE run_id = ?",
+                            (now(), json.dumps(summary, default=str), run_id))
+
+    def latest_run(self):
+        """(suite dict, summary dict, planned keys) of the newest finished run."""
+        row = self.db.execute("SELECT run_id, suite_json, summary FROM runs WHERE finished_at IS NOT NULL "
+                              "ORDER BY run_id DESC LIMIT 1").fetchone()
+        if row is None:
+            raise StoreError(f"{self.path}: no finished run in this store")
+        keys = [k for (k,) in self.db.execute("SELECT key FROM run_cells WHERE run_id = ?", (row[0],))]
+        return json.loads(row[1]), json.loads(row[2] or "{}"), keys
+
+    def cells(self, keys=None):
+        """Stored cells as a DataFrame, metrics expanded into columns; only ``keys`` when given."""
+        table = pd.read_sql_query("SELECT * FROM cells", self.db)
+        if keys is not None:
+            table = table[table["key"].isin(set(keys))]
+        metrics = pd.DataFrame([json.loads(m) if m else {} for m in table["metrics"]], index=table.index)
+        return pd.concat([table.drop(columns="metrics"), metrics], axis=1)
+
+
+def _cell_value(row, name):
+    value = row.get(name)
+    return json.dumps(value) if name == "metrics" and value is not None else value

@@ -1,0 +1,233 @@
+"""The suite file (TOML): what to compare, on what data, under which protocol.
+
+Every field is checked here, once, so later stages can trust the plan. Errors name the
+file, the field and the allowed values: ``bench/quick.toml: protocol.ratios: ...``.
+"""
+import hashlib
+import json
+import tomllib
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+from . import learners, preprocessing, resamplers
+from .datasets import ADAPTERS
+from .errors import LopsidedError, SuiteError, did_you_mean, unknown
+from .metrics import METRICS
+from .plugins import accepted_params
+from .specs import MethodSpec, parse_method, parse_reference
+
+TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
+            "preprocessing", "protocol", "store"}
+PROTOCOL_KEYS = {"repeats", "folds", "ratios", "sizes", "min_minority"}
+METHOD_KEYS = {"name", "params", "label"}
+
+
+@dataclass(frozen=True)
+class Protocol:
+    """Repeated stratified (grouped when the data has groups) k-fold, with sweep points.
+
+    ``ratios``: training-set imbalance ratios (majority:minority) to cut, or 'natural'.
+    ``sizes``: training-set sizes, or 'all'. Every ratio x size pair is a protocol point.
+    """
+
+    repeats: int = 3
+    folds: int = 5
+    ratios: tuple = ("natural",)
+    sizes: tuple = ("all",)
+    min_minority: int = 5
+
+    @property
+    def points(self):
+        return [(ratio, size) for ratio in self.ratios for size in self.sizes]
+
+
+@dataclass(frozen=True)
+class Suite:
+    name: str
+    seed: int
+    datasets: tuple
+    resamplers: tuple
+    learners: tuple
+    metrics: tuple
+    protocol: Protocol
+    preprocessing: tuple = ()
+    description: str = ""
+    source: str = "<suite>"
+    store: str | None = None
+
+    @property
+    def headline(self):
+        """The first listed metric: what rankings and plots use first."""
+        return self.metrics[0]
+
+    def with_resamplers(self, extra):
+        """The same suite with more resamplers appended (duplicates are refused)."""
+        merged = list(self.resamplers)
+        for spec in extra:
+            _check_new_label(merged, spec, self.source, "--add-resampler")
+            merged.append(spec)
+        return replace(self, resamplers=tuple(merged))
+
+    def as_dict(self):
+        """Plain, JSON-ready content (what the fingerprint and the store record)."""
+        return {
+            "name": self.name, "seed": self.seed, "description": self.description,
+            "datasets": list(self.datasets),
+            "resamplers": [_spec_dict(s) for s in self.resamplers],
+            "learners": [_spec_dict(s) for s in self.learners],
+            "preprocessing": [_spec_dict(s) for s in self.preprocessing],
+            "metrics": list(self.metrics),
+            "protocol": {"repeats": self.protocol.repeats, "folds": self.protocol.folds,
+                         "ratios": list(self.protocol.ratios), "sizes": list(self.protocol.sizes),
+                         "min_minority": self.protocol.min_minority},
+        }
+
+    @property
+    def fingerprint(self):
+        text = json.dumps(self.as_dict(), sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def _spec_dict(spec):
+    return {"name": spec.name, "params": dict(spec.params), "label": spec.title}
+
+
+def load_suite(path):
+    """Read and validate a suite file -> Suite."""
+    path = Path(path)
+    if not path.is_file():
+        raise SuiteError(path, "file", "no such suite file")
+    try:
+        raw = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        raise SuiteError(path, "file", f"not valid TOML ({exc})") from None
+    return suite_from_dict(raw, source=str(path))
+
+
+def suite_from_dict(raw, source="<suite>"):
+    """Validate a parsed suite (as from TOML or the store) -> Suite."""
+    _no_unknown_keys(raw, TOP_KEYS, source, "")
+    name = raw.get("name")
+    if not isinstance(name, str) or not name.strip() or any(c in name for c in "/\\"):
+        raise SuiteError(source, "name", "give the suite a short name without slashes, e.g. name = \"quick\"")
+    seed = raw.get("seed", 0)
+    if not isinstance(seed, int) or isinstance(seed, bool) or seed < 0:
+        raise SuiteError(source, "seed", f"{seed!r} is not a non-negative whole number")
+    metrics = tuple(raw.get("metrics", ["balanced_accuracy", "g_mean", "mcc", "roc_auc"]))
+    for i, metric in enumerate(metrics):
+        if metric not in METRICS:
+            raise SuiteError(source, f"metrics[{i}]", unknown("metric", metric, METRICS))
+    if not metrics:
+        raise SuiteError(source, "metrics", "list at least one metric; the first is the headline")
+    store = raw.get("store")
+    if store is not None and not isinstance(store, str):
+        raise SuiteError(source, "store", f"{store!r} is not a file path")
+    return Suite(
+        name=name.strip(),
+        seed=seed,
+        description=str(raw.get("description", "")),
+        datasets=_datasets(raw.get("datasets"), source),
+        resamplers=_methods(raw.get("resamplers", ["none"]), source, "resamplers", resamplers.resolve),
+        learners=_methods(raw.get("learners"), source, "learners", learners.resolve),
+        preprocessing=_methods(raw.get("preprocessing", []), source, "preprocessing", preprocessing.resolve, allow_empty=True),
+        metrics=metrics,
+        protocol=_protocol(raw.get("protocol", {}), source),
+        source=source,
+        store=store,
+    )
+
+
+def _no_unknown_keys(table, allowed, source, prefix):
+    for key in table:
+        if key not in allowed:
+            raise SuiteError(source, prefix + key,
+                             f"unknown field{did_you_mean(key, allowed)}; allowed: {', '.join(sorted(allowed))}")
+
+
+def _datasets(value, source):
+    if not isinstance(value, list) or not value:
+        raise SuiteError(source, "datasets", "list at least one dataset reference, e.g. [\"sklearn:wine?positive=2\"]")
+    for i, text in enumerate(value):
+        if not isinstance(text, str):
+            raise SuiteError(source, f"datasets[{i}]", f"{text!r} is not a dataset reference string")
+        scheme = parse_reference(text).scheme
+        if scheme not in ADAPTERS:
+            raise SuiteError(source, f"datasets[{i}]", unknown("dataset scheme", scheme, ADAPTERS))
+    if len(set(value)) != len(value):
+        raise SuiteError(source, "datasets", "a dataset is listed twice")
+    return tuple(value)
+
+
+def _methods(value, source, field, resolve, allow_empty=False):
+    if not isinstance(value, list) or (not value and not allow_empty):
+        raise SuiteError(source, field, "give a list of names, import paths or {name, params, label} tables")
+    specs = []
+    for i, item in enumerate(value):
+        where = f"{field}[{i}]"
+        spec = _method(item, source, where)
+        try:
+            allowed = accepted_params(resolve(spec.name))
+        except LopsidedError as exc:
+            raise SuiteError(source, where, str(exc)) from None
+        for key in spec.params:
+            if allowed is not None and key not in allowed - {"random_state"}:
+                raise SuiteError(source, f"{where}.params", f"{spec.name}: {unknown('parameter', key, allowed - {'random_state'})}")
+        _check_new_label(specs, spec, source, where)
+        specs.append(spec)
+    return tuple(specs)
+
+
+def _method(item, source, where):
+    if isinstance(item, str):
+        return parse_method(item)
+    if isinstance(item, dict):
+        _no_unknown_keys(item, METHOD_KEYS, source, where + ".")
+        if not isinstance(item.get("name"), str):
+            raise SuiteError(source, where + ".name", "say which method, e.g. name = \"random-under\"")
+        params = item.get("params", {})
+        if not isinstance(params, dict):
+            raise SuiteError(source, where + ".params", "write parameters as a table, e.g. params = {balance = 0.5}")
+        base = parse_method(item["name"])
+        return MethodSpec(base.name, {**base.params, **params}, str(item.get("label", "")))
+    raise SuiteError(source, where, f"{item!r} is neither a name nor a {{name, params, label}} table")
+
+
+def _check_new_label(specs, spec, source, where):
+    for other in specs:
+        if other == spec or other.title == spec.title:
+            raise SuiteError(source, where, f"{spec.title!r} is listed twice")
+
+
+def _protocol(table, source):
+    if not isinstance(table, dict):
+        raise SuiteError(source, "protocol", "must be a table: [protocol]")
+    _no_unknown_keys(table, PROTOCOL_KEYS, source, "protocol.")
+    defaults = Protocol()
+    repeats = _whole(table.get("repeats", defaults.repeats), source, "protocol.repeats", 1)
+    folds = _whole(table.get("folds", defaults.folds), source, "protocol.folds", 2)
+    min_minority = _whole(table.get("min_minority", defaults.min_minority), source, "protocol.min_minority", 2)
+    ratios = _list(table.get("ratios", list(defaults.ratios)), source, "protocol.ratios")
+    for value in ratios:
+        if value != "natural" and (isinstance(value, bool) or not isinstance(value, (int, float)) or value < 1):
+            raise SuiteError(source, "protocol.ratios",
+                             f"{value!r} is not an imbalance ratio; allowed: \"natural\" or a number >= 1 (majority:minority)")
+    sizes = _list(table.get("sizes", list(defaults.sizes)), source, "protocol.sizes")
+    for value in sizes:
+        if value != "all" and (isinstance(value, bool) or not isinstance(value, int) or value < 2 * min_minority):
+            raise SuiteError(source, "protocol.sizes",
+                             f"{value!r} is not a training-set size; allowed: \"all\" or a whole number >= {2 * min_minority}")
+    return Protocol(repeats, folds, tuple(ratios), tuple(sizes), min_minority)
+
+
+def _whole(value, source, field, lowest):
+    if isinstance(value, bool) or not isinstance(value, int) or value < lowest:
+        raise SuiteError(source, field, f"{value!r} is not a whole number >= {lowest}")
+    return value
+
+
+def _list(value, source, field):
+    if not isinstance(value, list) or not value:
+        raise SuiteError(source, field, "give a non-empty list")
+    if len(set(map(str, value))) != len(value):
+        raise SuiteError(source, field, "a value is listed twice")
+    return value
