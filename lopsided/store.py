@@ -108,7 +108,8 @@ class Store:
         table = pd.read_sql_query("SELECT * FROM cells", self.db)
         if keys is not None:
             table = table[table["key"].isin(set(keys))]
-        metrics = pd.DataFrame([json.loads(m) if m else {} for m in table["metrics"]], index=table.index)
+        metrics = pd.DataFrame([json.loads(m) if isinstance(m, str) else {} for m in table["metrics"]],
+                               index=table.index)
         return pd.concat([table.drop(columns="metrics"), metrics], axis=1)
 
 

@@ -22,28 +22,38 @@ class BayesResult:
 
 
 def dirichlet_weights(n, samples=4000, prior=1.0, seed=0):
-    """(samples, n + 1) posterior weights; column 0 belongs to the pseudo-observation at zero.
-
-    One matrix may serve every pair of a comparison (same n): common random numbers.
-    """
+    """(n + 1, samples) posterior weights, one column per draw; row 0 is the pseudo-observation at zero."""
     rng = np.random.default_rng(seed)
-    gammas = np.concatenate([rng.gamma(prior, size=(samples, 1)), rng.gamma(1.0, size=(samples, n))], axis=1)
-    return gammas / gammas.sum(axis=1, keepdims=True)
+    gammas = np.concatenate([rng.gamma(prior, size=(1, samples)), rng.gamma(1.0, size=(n, samples))], axis=0)
+    return gammas / gammas.sum(axis=0, keepdims=True)
 
 
-def signed_rank(first, second, rope, weights):
-    """P(left), P(rope), P(right) for paired scores, higher = better; left = ``first`` is better.
+class SignedRank:
+    """Posterior draws shared by every pair of one comparison (common random numbers, fixed seed).
 
-    Sorting z turns each double sum into cumulative sums: O(samples x n) per pair, no n x n matrix.
+    Sorting z turns each double sum into cumulative sums: O(samples x n) per pair, no n x n
+    matrix; scratch buffers are reused across pairs (fresh multi-megabyte arrays per pair cost
+    more in page faults than the arithmetic).
     """
-    z = np.concatenate([[0.0], np.asarray(second, dtype=float) - np.asarray(first, dtype=float)])
-    order = np.argsort(z, kind="mergesort")
-    zs, W = z[order], weights[:, order]
-    C = np.concatenate([np.zeros((len(W), 1)), np.cumsum(W, axis=1)], axis=1)
-    below = np.searchsorted(zs, -2.0 * rope - zs, side="left")      # j with z_j < -2r - z_i
-    above = np.searchsorted(zs, 2.0 * rope - zs, side="right")      # j with z_j <= 2r - z_i
-    theta_left = np.sum(W * C[:, below], axis=1)
-    theta_right = np.sum(W * (C[:, -1:] - C[:, above]), axis=1)
-    theta = np.stack([theta_left, 1.0 - theta_left - theta_right, theta_right], axis=1)
-    share = np.bincount(np.argmax(theta, axis=1), minlength=3) / len(theta)
-    return BayesResult(*map(float, share))
+
+    def __init__(self, n, samples=4000, prior=1.0, seed=0):
+        self.weights = dirichlet_weights(n, samples, prior, seed)
+        self._sorted = np.empty_like(self.weights)
+        self._cumulative = np.zeros((n + 2, samples))
+        self._picked = np.empty_like(self.weights)
+
+    def __call__(self, first, second, rope):
+        """P(left), P(rope), P(right) for paired scores, higher = better; left = ``first`` is better."""
+        z = np.concatenate([[0.0], np.asarray(second, dtype=float) - np.asarray(first, dtype=float)])
+        order = np.argsort(z, kind="mergesort")
+        zs, W, C = z[order], self._sorted, self._cumulative
+        np.take(self.weights, order, axis=0, out=W)
+        for m, row in enumerate(W):                 # C[m] = sum of the first m sorted weights, per draw
+            np.add(C[m], row, out=C[m + 1])
+        below = np.searchsorted(zs, -2.0 * rope - zs, side="left")      # j with z_j < -2r - z_i
+        above = np.searchsorted(zs, 2.0 * rope - zs, side="right")      # j with z_j <= 2r - z_i
+        theta_left = np.einsum("ij,ij->j", W, np.take(C, below, axis=0, out=self._picked))
+        theta_right = 1.0 - np.einsum("ij,ij->j", W, np.take(C, above, axis=0, out=self._picked))
+        theta = np.stack([theta_left, 1.0 - theta_left - theta_right, theta_right])
+        share = np.bincount(np.argmax(theta, axis=0), minlength=3) / theta.shape[1]
+        return BayesResult(*map(float, share))

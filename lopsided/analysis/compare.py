@@ -92,7 +92,9 @@ def compare(matrix, metric="score", higher_is_better=True, alpha=0.05, control=N
         raise AnalysisError(f"alpha={alpha} must lie between 0 and 1")
     if rope < 0:
         raise AnalysisError(f"rope={rope} must be zero or positive")
-    table, dropped = apply_missing_policy(matrix.astype(float), missing)
+    # Rows and columns in name order: the result must not depend on the order of the input file.
+    ordered = matrix.astype(float).sort_index(axis=0).sort_index(axis=1)
+    table, dropped = apply_missing_policy(ordered, missing)
     n, k = table.shape
     if n < 2 or k < 2:
         raise AnalysisError(f"a comparison needs at least 2 complete datasets and 2 methods; "
@@ -128,12 +130,12 @@ def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed):
     oriented = table.to_numpy(dtype=float) * (1.0 if higher_is_better else -1.0)
     names = list(table.columns)
     pairs = posthoc.all_pairs(names)
-    weights = bayes.dirichlet_weights(len(table), samples=samples, seed=seed)
+    posterior = bayes.SignedRank(len(table), samples=samples, seed=seed)
     wilcoxon = [posthoc.wilcoxon_p(oriented[:, i], oriented[:, j]) for i, j in pairs]
     adjusted = posthoc.holm(wilcoxon)
     rows = []
     for (i, j), w, h in zip(pairs, wilcoxon, adjusted):
-        b = bayes.signed_rank(oriented[:, i], oriented[:, j], rope, weights)
+        b = posterior(oriented[:, i], oriented[:, j], rope)
         rows.append({"a": names[i], "b": names[j], "wilcoxon_p": w, "holm_p": float(h),
                      "nemenyi_p": float(p_matrix[i, j]),
                      "bayes": {"left": b.left, "rope": b.rope, "right": b.right}})
