@@ -3,12 +3,14 @@
 Learners that depend on feature scale (logistic regression, k-NN, SVM) carry their own
 standardisation, fitted on the (resampled) training set only.
 """
+import inspect
+
 from sklearn.base import clone
 from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
 from sklearn.ensemble import AdaBoostClassifier, HistGradientBoostingClassifier, RandomForestClassifier
 from sklearn.linear_model import LogisticRegression
 from sklearn.neighbors import KNeighborsClassifier
-from sklearn.pipeline import make_pipeline
+from sklearn.pipeline import Pipeline, make_pipeline
 from sklearn.preprocessing import StandardScaler
 from sklearn.svm import SVC
 from sklearn.tree import DecisionTreeClassifier
@@ -78,6 +80,17 @@ def make_learner(spec, random_state=None):
     model = clone(model)
     seeds = {k: random_state for k in model.get_params(deep=True) if k.endswith("random_state")}
     return model.set_params(**seeds) if seeds else model
+
+
+def weight_arguments(model, weights, title):
+    """fit() keyword for per-sample weights ({} without weights); routed to a pipeline's last step."""
+    if weights is None:
+        return {}
+    final = model.steps[-1][1] if isinstance(model, Pipeline) else model
+    if "sample_weight" not in inspect.signature(final.fit).parameters:
+        raise MethodError(f"learner {title}: its fit() takes no sample weights, so class weights cannot apply")
+    key = f"{model.steps[-1][0]}__sample_weight" if isinstance(model, Pipeline) else "sample_weight"
+    return {key: weights}
 
 
 def describe():

@@ -34,6 +34,7 @@ def entry_point_objects(group):
 def code_version(obj):
     """What a stored result depends on: lopsided's version for its own code, else the
     plugin's distribution version, else a hash of the plugin's source file."""
+    obj = getattr(obj, "func", obj)           # functools.partial
     module_name = getattr(obj, "__module__", "") or ""
     top = module_name.split(".")[0]
     if top == "lopsided":
@@ -51,14 +52,16 @@ def code_version(obj):
 
 
 def accepted_params(factory):
-    """Parameter names a class or function accepts (None when it takes **kwargs)."""
+    """Parameter names a class or function accepts (None when it takes **kwargs).
+    Arguments fixed by functools.partial are not offered."""
     try:
         signature = inspect.signature(factory)
     except (TypeError, ValueError):
         return None
     if any(p.kind is p.VAR_KEYWORD for p in signature.parameters.values()):
         return None
-    return {name for name in signature.parameters if name != "self"}
+    fixed = set(getattr(factory, "keywords", {}) or {})
+    return {name for name in signature.parameters if name != "self"} - fixed
 
 
 def build(kind, title, factory, params):

@@ -134,15 +134,16 @@ def execute_unit(unit, data, preprocessing_specs):
         return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "status": "failed",
                  "error": error, "finished_at": now()} for c in unit.cells]
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
-    return [_fit_one(cell, base, X_res, y_res, X_test, y_test, data) for cell in unit.cells]
+    weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
+    return [_fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data) for cell in unit.cells]
 
 
-def _fit_one(cell, base, X_res, y_res, X_test, y_test, data):
+def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
     row = {**base, "key": cell.key, "learner": cell.learner.canonical, "seed": cell.seed}
     try:
         model = learner_registry.make_learner(cell.learner, cell.seed)
         started = time.perf_counter()
-        model.fit(X_res, y_res)
+        model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
         fitted = time.perf_counter()
         predicted = np.asarray(model.predict(X_test)).astype(np.int64)
         scores = class_scores(model, X_test, len(data.classes))

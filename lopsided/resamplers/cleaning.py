@@ -1,0 +1,95 @@
+"""Data cleaning under-samplers: Tomek links, edited nearest neighbours, one-sided selection."""
+import numpy as np
+from sklearn.neighbors import KNeighborsClassifier
+
+from .base import ResamplingError, as_rng, check_xy
+from .neighbours import neighbours_within
+
+
+def tomek_links(X, y):
+    """(i, j) index pairs, i < j, of opposite-class mutual nearest neighbours (Tomek 1976,
+    IEEE Trans. SMC 6:769, "Two modifications of CNN")."""
+    nearest = neighbours_within(X, 1)[:, 0]
+    i = np.arange(len(X))
+    linked = (nearest[nearest] == i) & (y[nearest] != y) & (i < nearest)
+    return np.c_[i[linked], nearest[linked]]
+
+
+def _larger_class_member(pairs, y):
+    """For each link, the member from the class with more samples (ties: the second member)."""
+    counts = np.bincount(y)
+    a, b = pairs[:, 0], pairs[:, 1]
+    return np.where(counts[y[a]] > counts[y[b]], a, b)
+
+
+class TomekLinks:
+    """Removes Tomek links (Tomek 1976): by default only the member from the larger class, with
+    ``remove="both"`` both members (as in Batista, Prati & Monard 2004)."""
+
+    def __init__(self, remove="larger", random_state=None):
+        self.remove = remove
+        self.random_state = random_state
+
+    def fit_resample(self, X, y):
+        X, y = check_xy(X, y)
+        if self.remove not in ("larger", "both"):
+            raise ResamplingError(f"remove={self.remove!r} must be 'larger' or 'both'")
+        pairs = tomek_links(X, y)
+        drop = pairs.ravel() if self.remove == "both" else _larger_class_member(pairs, y)
+        keep = np.setdiff1d(np.arange(len(y)), drop)
+        return X[keep], y[keep]
+
+
+def enn_removals(X, y, k, candidates):
+    """Boolean mask: candidate rows whose k nearest neighbours are mostly (> k / 2) of other classes
+    (Wilson 1972, IEEE Trans. SMC 2:408, editing rule)."""
+    near = neighbours_within(X, k)
+    other = (y[near] != y[:, None]).sum(axis=1)
+    return candidates & (other > near.shape[1] / 2)
+
+
+class EditedNearestNeighbours:
+    """Edited nearest neighbours (Wilson 1972): removes a sample when most of its ``neighbours``
+    nearest neighbours belong to other classes. ``classes="majority"`` edits only the largest
+    class (the usual under-sampling use); ``"all"`` edits every class (as in Batista et al. 2004)."""
+
+    def __init__(self, neighbours=3, classes="majority", random_state=None):
+        self.neighbours = neighbours
+        self.classes = classes
+        self.random_state = random_state
+
+    def fit_resample(self, X, y):
+        X, y = check_xy(X, y)
+        if self.classes not in ("majority", "all"):
+            raise ResamplingError(f"classes={self.classes!r} must be 'majority' or 'all'")
+        candidates = np.ones(len(y), bool) if self.classes == "all" else y == np.bincount(y).argmax()
+        keep = ~enn_removals(X, y, self.neighbours, candidates)
+        if len(np.unique(y[keep])) < len(np.unique(y)):
+            raise ResamplingError("editing removed every sample of a class; use fewer neighbours")
+        return X[keep], y[keep]
+
+
+class OneSidedSelection:
+    """One-sided selection (Kubat & Matwin 1997, ICML, 179): start from every minority sample plus
+    one random majority sample, add the majority samples a 1-NN rule on that set misclassifies,
+    then remove the majority members of Tomek links in the result. Binary: the largest class is
+    the majority, all others are kept whole."""
+
+    def __init__(self, random_state=None):
+        self.random_state = random_state
+
+    def fit_resample(self, X, y):
+        X, y = check_xy(X, y)
+        rng = as_rng(self.random_state)
+        majority = np.bincount(y).argmax()
+        major = np.flatnonzero(y == majority)
+        start = np.r_[np.flatnonzero(y != majority), rng.choice(major)]
+        rule = KNeighborsClassifier(n_neighbors=1).fit(X[start], y[start])
+        wrong = major[rule.predict(X[major]) != majority]
+        chosen = np.unique(np.r_[start, wrong])
+        pairs = tomek_links(X[chosen], y[chosen])
+        if len(pairs):
+            members = pairs.ravel()
+            drop = chosen[members[y[chosen][members] == majority]]
+            chosen = np.setdiff1d(chosen, drop)
+        return X[chosen], y[chosen]

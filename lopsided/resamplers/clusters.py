@@ -1,0 +1,24 @@
+"""Cluster-centre under-sampling (Yen & Lee 2009, Expert Syst. Appl. 36:5718, cluster-based
+under-sampling): each class above the target is replaced by the centres of k-means clusters
+(Lloyd 1982), one centre per kept sample. The centres are new points, not original samples."""
+import numpy as np
+from sklearn.cluster import KMeans
+
+from .base import check_xy, under_targets
+
+
+class ClusterCentres:
+    def __init__(self, balance=1.0, random_state=None):
+        self.balance = balance
+        self.random_state = random_state
+
+    def fit_resample(self, X, y):
+        X, y = check_xy(X, y)
+        caps = under_targets(y, self.balance)
+        rows = [X[~np.isin(y, list(caps))]]
+        labels = [y[~np.isin(y, list(caps))]]
+        for label, cap in caps.items():
+            model = KMeans(n_clusters=cap, n_init=1, random_state=self.random_state).fit(X[y == label])
+            rows.append(model.cluster_centers_)
+            labels.append(np.full(cap, label, dtype=y.dtype))
+        return np.concatenate(rows), np.concatenate(labels)
