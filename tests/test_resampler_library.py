@@ -1,0 +1,268 @@
+"""Every built-in resampler against a brute-force computation of its published definition
+(scipy.spatial distances and plain loops), plus determinism and degenerate inputs."""
+import sys
+
+import numpy as np
+import pytest
+from scipy.spatial.distance import cdist
+
+from lopsided.resamplers import BUILTIN, make_resampler, resolve
+from lopsided.resamplers.base import ResamplingError
+from lopsided.resamplers.cleaning import EditedNearestNeighbours, OneSidedSelection, TomekLinks, tomek_links
+from lopsided.resamplers.clusters import ClusterCentres
+from lopsided.resamplers.nearmiss import NearMiss
+from lopsided.resamplers.neighbours import apportion
+from lopsided.resamplers.smote import ADASYN, SMOTE, SMOTENC, BorderlineSMOTE
+from lopsided.specs import parse_method
+
+
+def two_classes(n_major=150, n_minor=30, d=3, seed=0, shift=1.2):
+    rng = np.random.default_rng(seed)
+    X = np.r_[rng.normal(size=(n_major, d)), rng.normal(shift, 1.0, size=(n_minor, d))]
+    y = np.r_[np.zeros(n_major, int), np.ones(n_minor, int)]
+    return X, y
+
+
+def knn_brute(A, B, k, same=False):
+    """k nearest rows of B for each row of A by full distance matrix (small sizes only)."""
+    D = cdist(A, B)
+    if same:
+        np.fill_diagonal(D, np.inf)
+    return np.argsort(D, axis=1, kind="stable")[:, :k]
+
+
+def on_segment(p, a, b, tol=1e-9):
+    """p = a + u (b - a) with 0 <= u <= 1 (and the gap u returned)."""
+    direction = b - a
+    length = direction @ direction
+    if length == 0:
+        return np.allclose(p, a, atol=tol), 0.0
+    u = (p - a) @ direction / length
+    return bool(np.linalg.norm(a + u * direction - p) < 1e-7 and -tol <= u <= 1 + tol), u
+
+
+def test_smote_points_lie_on_neighbour_segments_and_count_is_exact():
+    """Chawla et al. (2002), section 4.2: x_new = x + u * (x_nn - x), u ~ U(0, 1), x_nn among the k
+    nearest minority neighbours of x."""
+    X, y = two_classes()
+    Xr, yr = SMOTE(neighbours=5, random_state=3).fit_resample(X, y)
+    assert np.bincount(yr).tolist() == [150, 150]
+    np.testing.assert_array_equal(Xr[:180], X)
+    minority = X[y == 1]
+    near = knn_brute(minority, minority, 5, same=True)
+    for p in Xr[180:]:
+        assert any(on_segment(p, minority[i], minority[j])[0] for i in range(30) for j in near[i])
+
+
+def danger_brute(X, y, m):
+    near = knn_brute(X[y == 1], X, m + 1)[:, 1:]      # first is the point itself (continuous data)
+    others = (y[near] == 0).sum(axis=1)
+    return (others >= m / 2) & (others < m)
+
+
+@pytest.mark.parametrize("variant", [1, 2])
+def test_borderline_smote_seeds_only_from_the_danger_set(variant):
+    """Han et al. (2005), section 3.1: danger = m/2 <= m' < m majority among the m nearest neighbours."""
+    X, y = two_classes(shift=0.8, seed=2)
+    Xr, yr = BorderlineSMOTE(variant=variant, neighbours=5, danger_neighbours=10, random_state=1).fit_resample(X, y)
+    assert np.bincount(yr).tolist() == [150, 150]
+    minority = X[y == 1]
+    danger = np.flatnonzero(danger_brute(X, y, 10))
+    assert 0 < len(danger) < 30
+    pool = knn_brute(minority[danger], minority, 6)[:, 1:] if variant == 1 else knn_brute(minority[danger], X, 6)[:, 1:]
+    targets = minority if variant == 1 else X
+    for p in Xr[180:]:
+        hits = [(s, j, on_segment(p, minority[s], targets[j])) for r, s in enumerate(danger) for j in pool[r]]
+        hit = [(s, j, u) for s, j, (ok, u) in hits if ok]
+        assert hit, "a synthetic point does not come from a danger seed"
+        if variant == 2:
+            assert any(u <= 0.5 + 1e-9 or y[j] == 1 for _, j, u in hit)
+
+
+def test_adasyn_counts_follow_the_normalised_majority_ratios():
+    """He et al. (2008), steps (b)-(d): r_i = Delta_i / K, g_i = r_i / sum(r) * G."""
+    X, y = two_classes(shift=1.0, seed=4)
+    G = 150 - 30
+    Xr, yr = ADASYN(neighbours=5, random_state=2).fit_resample(X, y)
+    minority = X[y == 1]
+    near = knn_brute(minority, X, 6)[:, 1:]
+    ratio = (y[near] == 0).sum(axis=1) / 5
+    counts = apportion(G, ratio)
+    assert counts.sum() == G and (yr == 1).sum() == 150
+    np.testing.assert_allclose(counts, ratio / ratio.sum() * G, atol=1.0)
+    seeds = np.repeat(np.arange(30), counts)
+    nearest_minority = knn_brute(minority, minority, 5, same=True)
+    for p, s in zip(Xr[180:], seeds):
+        assert any(on_segment(p, minority[s], minority[j])[0] for j in nearest_minority[s])
+
+
+def test_smote_nc_distance_and_nominal_vote():
+    """Chawla et al. (2002), section 6.1: continuous Euclidean distance plus Med^2 per nominal mismatch;
+    nominal value of a new point = the most frequent value among the k nearest neighbours."""
+    rng = np.random.default_rng(7)
+    X, y = two_classes(seed=7)
+    X[:, 2] = rng.integers(0, 3, len(X))
+    Xr, yr = SMOTENC(nominal=[2], neighbours=4, random_state=5).fit_resample(X, y)
+    minority = X[y == 1]
+    med = np.median(minority[:, :2].std(axis=0))
+    D = cdist(minority[:, :2], minority[:, :2], "sqeuclidean") + med ** 2 * (minority[:, 2][:, None] != minority[:, 2][None, :])
+    np.fill_diagonal(D, np.inf)
+    near = np.argsort(D, axis=1, kind="stable")[:, :4]
+    for p in Xr[180:]:
+        found = False
+        for i in range(30):
+            for j in near[i]:
+                if on_segment(p[:2], minority[i, :2], minority[j, :2])[0]:
+                    values, counts = np.unique(minority[near[i], 2], return_counts=True)
+                    found = found or p[2] == values[np.argmax(counts)]
+        assert found
+    assert set(np.unique(Xr[:, 2])) <= {0.0, 1.0, 2.0}
+
+
+def test_tomek_links_are_exactly_the_mutual_nearest_opposite_pairs():
+    """Tomek (1976): (a, b) of different classes with no sample closer to either than they are to each other."""
+    X, y = two_classes(shift=0.6, seed=5)
+    nearest = knn_brute(X, X, 1, same=True)[:, 0]
+    brute = {(i, j) for i, j in enumerate(nearest) if nearest[j] == i and y[i] != y[j] and i < j}
+    assert brute and {tuple(p) for p in tomek_links(X, y)} == brute
+    Xr, yr = TomekLinks().fit_resample(X, y)
+    removed = {i for i, j in brute for k in (i, j) if y[k] == 0 and k == (i if y[i] == 0 else j)}
+    assert len(Xr) == len(X) - len(removed) and (yr == 1).sum() == 30
+    Xb, _ = TomekLinks(remove="both").fit_resample(X, y)
+    assert len(Xb) == len(X) - 2 * len(brute)
+
+
+def test_enn_removes_exactly_the_majority_samples_its_neighbours_outvote():
+    """Wilson (1972): a sample goes when most of its k = 3 nearest neighbours are of another class."""
+    X, y = two_classes(shift=0.8, seed=6)
+    near = knn_brute(X, X, 3, same=True)
+    outvoted = ((y[near] != y[:, None]).sum(axis=1) > 1.5) & (y == 0)
+    Xr, _ = EditedNearestNeighbours(neighbours=3).fit_resample(X, y)
+    np.testing.assert_array_equal(Xr, X[~outvoted])
+    everyone = (y[near] != y[:, None]).sum(axis=1) > 1.5
+    Xa, _ = EditedNearestNeighbours(neighbours=3, classes="all").fit_resample(X, y)
+    np.testing.assert_array_equal(Xa, X[~everyone])
+
+
+@pytest.mark.parametrize("version", [1, 2, 3])
+def test_nearmiss_picks_per_its_distance_rule(version):
+    """Mani & Zhang (2003): NM-1 nearest 3 minority, NM-2 farthest 3, NM-3 short list then farthest."""
+    X, y = two_classes(seed=8)
+    major, minor = np.flatnonzero(y == 0), np.flatnonzero(y == 1)
+    D = cdist(X[major], X[minor])
+    if version == 1:
+        chosen = major[np.argsort(np.sort(D, axis=1)[:, :3].mean(axis=1), kind="stable")[:30]]
+    elif version == 2:
+        chosen = major[np.argsort(np.sort(D, axis=1)[:, -3:].mean(axis=1), kind="stable")[:30]]
+    else:
+        short = np.unique(np.argsort(D.T, axis=1, kind="stable")[:, :3])
+        score = np.sort(D[short], axis=1)[:, :3].mean(axis=1)
+        chosen = major[short[np.argsort(-score, kind="stable")[:30]]]
+    Xr, yr = NearMiss(version=version).fit_resample(X, y)
+    assert {tuple(r) for r in Xr[yr == 0]} == {tuple(r) for r in X[np.sort(chosen)]}
+    assert (yr == 1).sum() == 30
+
+
+def test_one_sided_selection_follows_kubat_and_matwin():
+    """Kubat & Matwin (1997), section 3: C = minority + 1 random majority; add majority misclassified by
+    1-NN on C; remove majority members of Tomek links in C."""
+    X, y = two_classes(shift=1.0, seed=9)
+    major = np.flatnonzero(y == 0)
+    first = np.random.default_rng(4).choice(major)
+    C = np.r_[np.flatnonzero(y == 1), first]
+    nearest_in_C = C[np.argmin(cdist(X[major], X[C]), axis=1)]
+    C = np.unique(np.r_[C, major[y[nearest_in_C] != 0]])
+    nearest = C[knn_brute(X[C], X[C], 1, same=True)[:, 0]]
+    linked = {int(c) for c, n in zip(C, nearest) if y[c] == 0 and y[n] == 1
+              and nearest[np.flatnonzero(C == n)[0]] == c}
+    expected = np.setdiff1d(C, list(linked))
+    Xr, yr = OneSidedSelection(random_state=4).fit_resample(X, y)
+    np.testing.assert_array_equal(Xr, X[expected])
+
+
+def test_cluster_centres_replace_the_majority():
+    X, y = two_classes(seed=10)
+    Xr, yr = ClusterCentres(random_state=0).fit_resample(X, y)
+    assert np.bincount(yr).tolist() == [30, 30]
+    np.testing.assert_array_equal(Xr[yr == 1], X[y == 1])
+    centres = Xr[yr == 0]
+    assigned = np.argmin(cdist(X[y == 0], centres), axis=1)
+    for c in range(30):    # Lloyd's fixed point: each centre is the mean of the points nearest to it
+        np.testing.assert_allclose(centres[c], X[y == 0][assigned == c].mean(axis=0), atol=1e-6)
+
+
+NEEDS_PARAMS = {"smote-nc": "?nominal=2"}
+
+
+@pytest.mark.parametrize("name", sorted(BUILTIN))
+def test_every_builtin_is_deterministic_under_random_state(name):
+    X, y = two_classes(seed=11)
+    X[:, 2] = np.round(np.abs(X[:, 2]))
+    spec = parse_method(name + NEEDS_PARAMS.get(name, ""))
+    a = make_resampler(spec, 5).fit_resample(X, y)
+    b = make_resampler(spec, 5).fit_resample(X, y)
+    np.testing.assert_array_equal(a[0], b[0])
+    np.testing.assert_array_equal(a[1], b[1])
+
+
+@pytest.mark.parametrize("name", ["smote", "borderline-smote-1", "borderline-smote-2", "adasyn", "smote-tomek"])
+def test_small_minority_falls_back_to_fewer_neighbours_and_single_sample_is_refused(name):
+    X, y = two_classes(n_minor=4, seed=12, shift=0.3)
+    Xr, yr = make_resampler(parse_method(name), 1).fit_resample(X, y)      # 4 < k + 1 = 6: k becomes 3
+    assert (yr == 1).sum() >= 4
+    X1, y1 = two_classes(n_minor=1, seed=12)
+    with pytest.raises(ResamplingError, match="at least 2 samples"):
+        make_resampler(parse_method(name), 1).fit_resample(X1, y1)
+
+
+@pytest.mark.parametrize("name", sorted(BUILTIN))
+def test_duplicates_and_one_class(name):
+    X, y = two_classes(seed=13)
+    X[:, 2] = 1.0
+    X = np.r_[X, X[-5:]]       # duplicated minority rows
+    y = np.r_[y, y[-5:]]
+    spec = parse_method(name + NEEDS_PARAMS.get(name, ""))
+    Xr, yr = make_resampler(spec, 0).fit_resample(X, y)
+    assert np.isfinite(Xr).all() and set(yr) == {0, 1}
+    with pytest.raises(ResamplingError, match="one class"):
+        make_resampler(spec, 0).fit_resample(X[y == 0], y[y == 0])
+
+
+def test_entry_point_plugins_are_discovered(tmp_path, monkeypatch):
+    """A throw-away installed distribution advertising lopsided.resamplers."""
+    info = tmp_path / "halves_demo-0.1.dist-info"
+    info.mkdir()
+    (info / "METADATA").write_text("Metadata-Version: 2.1\nName: halves-demo\nVersion: 0.1\n")
+    (info / "entry_points.txt").write_text("[lopsided.resamplers]\nhalves = plugins_for_tests:Halves\n")
+    monkeypatch.syspath_prepend(str(tmp_path))
+    from lopsided.resamplers import describe
+    assert ("halves", "plugin from plugins_for_tests:Halves") in describe()
+    assert resolve("halves").__name__ == "Halves"
+    assert "plugins_for_tests" in sys.modules
+
+
+def test_class_weights_reach_the_learner_or_fail_clearly(write_suite, tmp_path):
+    from lopsided.benchmark import run_suite
+    path = write_suite()
+    text = path.read_text().replace('resamplers = ["none", "random-under", "topup-over"]', 'resamplers = ["class-weights"]')
+    path.write_text(text.replace('learners = ["logistic-regression"', 'learners = ["knn", "logistic-regression"'))
+    cells = run_suite(path, out=tmp_path / "o", progress=False).cells
+    assert (cells.loc[cells.learner == "logistic-regression", "status"] == "ok").all()
+    knn = cells[cells.learner == "knn"]
+    assert (knn.status == "failed").all() and knn.error.str.contains("takes no sample weights").all()
+
+
+def test_the_example_plugin_joins_a_suite(write_suite, tmp_path, monkeypatch, capsys):
+    """The README's plugin walk-through, with the demo on the path instead of installed."""
+    from pathlib import Path
+
+    from lopsided.cli import main
+    monkeypatch.syspath_prepend(str(Path(__file__).parents[1] / "examples" / "jitter_plugin"))
+    path = write_suite()
+    assert main(["run", str(path), "--out", str(tmp_path / "o"), "--quiet"]) == 0
+    capsys.readouterr()
+    assert main(["run", str(path), "--out", str(tmp_path / "o"), "--quiet",
+                 "--add-resampler", "lopsided_jitter_demo:JitterOver?spread=0.2"]) == 0
+    printed = capsys.readouterr().out
+    assert "144 reused" in printed and "48 computed (0 failed)" in printed
+    assert "lopsided_jitter_demo:JitterOver?spread=0.2" in (tmp_path / "o" / "leaderboard.md").read_text()
