@@ -5,18 +5,45 @@ standardisation, fitted on the (resampled) training set only.
 """
 import inspect
 
-from sklearn.base import clone
+import numpy as np
+from sklearn.base import BaseEstimator, ClassifierMixin, clone
+from sklearn.cross_decomposition import PLSRegression
 from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
 from sklearn.ensemble import AdaBoostClassifier, HistGradientBoostingClassifier, RandomForestClassifier
 from sklearn.linear_model import LogisticRegression
 from sklearn.neighbors import KNeighborsClassifier
 from sklearn.pipeline import Pipeline, make_pipeline
 from sklearn.preprocessing import StandardScaler
-from sklearn.svm import SVC
+from sklearn.svm import SVC, LinearSVC
 from sklearn.tree import DecisionTreeClassifier
 
 from .errors import MethodError, unknown
 from .plugins import build, import_object
+
+
+class PLSDA(ClassifierMixin, BaseEstimator):
+    """PLS discriminant analysis: PLS regression (Wold, Sjöström & Eriksson 2001) on one-hot class
+    indicators; a sample goes to the class with the largest predicted indicator (for two classes,
+    the same as thresholding the positive indicator at 0.5; Barker & Rayens 2003). The number of
+    latent variables is capped by the training set's rank limits."""
+
+    def __init__(self, n_components=10, scale=True):
+        self.n_components = n_components
+        self.scale = scale
+
+    def fit(self, X, y):
+        X, y = np.asarray(X, dtype=float), np.asarray(y)
+        self.classes_ = np.unique(y)
+        indicators = (y[:, None] == self.classes_[None, :]).astype(float)
+        components = max(1, min(self.n_components, X.shape[1], len(X) - 1))
+        self.pls_ = PLSRegression(n_components=components, scale=self.scale).fit(X, indicators)
+        return self
+
+    def decision_function(self, X):
+        return self.pls_.predict(np.asarray(X, dtype=float))
+
+    def predict(self, X):
+        return self.classes_[np.argmax(self.decision_function(X), axis=1)]
 
 
 def _scaled(model):
@@ -53,6 +80,14 @@ def svm_rbf(C=1.0, gamma="scale"):
     return _scaled(SVC(C=C, gamma=gamma))
 
 
+def linear_svm(C=1.0):
+    return _scaled(LinearSVC(C=C, max_iter=5000))
+
+
+def pls_da(components=10):
+    return PLSDA(n_components=components)
+
+
 LEARNERS = {
     "adaboost-stumps": (adaboost_stumps, "AdaBoost (SAMME) over depth-1 trees, 100 rounds (Freund & Schapire 1997)"),
     "random-forest": (random_forest, "random forest, 100 trees, sqrt(d) features per split (Breiman 2001)"),
@@ -61,6 +96,8 @@ LEARNERS = {
     "hist-gradient-boosting": (hist_gradient_boosting, "histogram gradient boosting, 100 iterations (Ke et al. 2017)"),
     "knn": (knn, "standardised k-nearest neighbours, k = 5"),
     "svm-rbf": (svm_rbf, "standardised support vector machine, RBF kernel, C = 1"),
+    "linear-svm": (linear_svm, "standardised linear support vector machine, C = 1 (Fan et al. 2008, LIBLINEAR)"),
+    "pls-da": (pls_da, "PLS discriminant analysis, 10 latent variables, argmax of predicted indicators"),
 }
 
 

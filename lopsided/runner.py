@@ -120,7 +120,7 @@ def execute_unit(unit, data, preprocessing_specs):
             "n_train_minority": int((y_train == data.minority).sum()), "code_version": __version__}
     stage = "preprocessing"
     try:
-        pipeline = preprocessing_registry.make_preprocessing(preprocessing_specs)
+        pipeline = preprocessing_registry.make_preprocessing(preprocessing_specs, data.axis)
         if pipeline is not None:
             X_train, X_test = pipeline.fit_transform(X_train, y_train), pipeline.transform(X_test)
         stage = f"resampler {unit.resampler.title}"

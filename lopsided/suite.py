@@ -170,8 +170,9 @@ def _methods(value, source, field, resolve, allow_empty=False):
         except LopsidedError as exc:
             raise SuiteError(source, where, str(exc)) from None
         for key in spec.params:
-            if allowed is not None and key not in allowed - {"random_state"}:
-                raise SuiteError(source, f"{where}.params", f"{spec.name}: {unknown('parameter', key, allowed - {'random_state'})}")
+            offered = None if allowed is None else allowed - {"random_state", "axis"}
+            if offered is not None and key not in offered:
+                raise SuiteError(source, f"{where}.params", f"{spec.name}: {unknown('parameter', key, offered)}")
         _check_new_label(specs, spec, source, where)
         specs.append(spec)
     return tuple(specs)

@@ -25,6 +25,13 @@ def claims(result):
                      f"{k - 1}: {', '.join(beaten)}.")
     elif f.iman_davenport_p < a:
         lines.append(f"{best} ranks first, but no method is significantly worse than it by the Nemenyi test.")
+    if result.control is not None:
+        better = [m for m, p in result.bonferroni_dunn_p.items()
+                  if p < a and result.average_ranks[m] < result.average_ranks[result.control]]
+        worse = [m for m, p in result.bonferroni_dunn_p.items()
+                 if p < a and result.average_ranks[m] > result.average_ranks[result.control]]
+        lines.append(f"Against the control {result.control} (Bonferroni-Dunn, CD = {result.bonferroni_dunn.cd:.3g}): "
+                     f"significantly better: {', '.join(better) or 'none'}; significantly worse: {', '.join(worse) or 'none'}.")
     equivalent = [(p["a"], p["b"]) for p in result.pairwise if p["bayes"]["rope"] >= 0.95]
     if equivalent:
         shown = "; ".join(f"{x} ~ {y}" for x, y in equivalent[:5])

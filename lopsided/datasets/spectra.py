@@ -11,7 +11,11 @@ Presets (scenarios of our own):
   class effect = a shift of ``effect`` donor standard deviations in the log intensity of a few
   carbohydrate, phosphate and lipid bands.
 - ``polymers``: micro-particles of six common plastics with a long-tailed abundance; optional
-  ``positive=NAME`` for a one-vs-rest task; oxidative weathering adds a carbonyl band.
+  ``positive=NAME`` for a one-vs-rest task; each particle carries an admixture of another particle's
+  spectrum (``purity``), oxidative weathering adds a carbonyl band and biofilm adds protein bands.
+
+Common parameters: ``seed``, ``snr`` (peak signal over noise sd), ``region`` (full | fingerprint),
+``step`` (cm-1), ``water`` (strength of water-vapour-like lines, 0 = none).
 """
 from dataclasses import dataclass
 
@@ -66,9 +70,15 @@ POLYMER_BANDS = {
 }
 POLYMER_ABUNDANCE_ORDER = ("polyethylene", "polypropylene", "polystyrene", "pet", "polyamide", "pvc")
 CARBONYL_WEATHERING = Band(1715, 30, 1.0, 0.5, "C=O of oxidation products (weathering)")
+# Biofilm on environmental particles: protein amide I and II (Baker et al. 2014, from memory).
+BIOFILM_BANDS = (Band(1650, 34, 1.0, 0.5, "amide I (biofilm)"), Band(1545, 34, 0.6, 0.5, "amide II (biofilm)"))
 
 REGIONS = {"full": (4000.0, 900.0), "fingerprint": (1800.0, 900.0)}
-COMMON = {"seed", "snr", "region", "step"}
+COMMON = {"seed", "snr", "region", "step", "water"}
+# Water-vapour-like interference: narrow lines across the H-O-H bending (about 1400-1900 cm-1) and
+# O-H stretching (about 3500-3950 cm-1) regions, as uncompensated atmospheric water leaves them in
+# open-beam FTIR spectra (positions drawn by our generator, not taken from a line list).
+WATER_WINDOWS = ((1400.0, 1900.0, 60), (3500.0, 3950.0, 50))
 
 
 def pseudo_voigt(axis, centre, fwhm, eta):
@@ -109,6 +119,15 @@ def _noise(spectra, snr, rng):
     return spectra + rng.normal(0, 1, spectra.shape) * sd
 
 
+def _water_lines(axis, n_spectra, strength, rng):
+    """Sharp Lorentzian lines (FWHM 2 cm-1) at fixed random positions, amplitude varying per spectrum."""
+    centres = np.concatenate([rng.uniform(lo, hi, n) for lo, hi, n in WATER_WINDOWS])
+    heights = rng.exponential(1.0, len(centres))
+    comb = heights @ np.stack([pseudo_voigt(axis, c, 2.0, 1.0) for c in centres])
+    humidity = rng.exponential(strength, n_spectra)
+    return humidity[:, None] * comb[None, :] / max(comb.max(), 1e-12)
+
+
 def _groups_per_class(n_groups, shares):
     """Whole groups per class, each class at least one, totals as close to the shares as rounding allows."""
     counts = np.maximum(1, np.round(np.asarray(shares) / np.sum(shares) * n_groups)).astype(int)
@@ -118,30 +137,51 @@ def _groups_per_class(n_groups, shares):
     return counts
 
 
-def serum(params):
-    """Binary serum-film screening set; see the module docstring."""
+SERUM_DONOR_SD, SERUM_REPLICATE_SD = 0.15, 0.04   # sd of log band intensity between donors / replicates
+
+
+def serum_amplitudes(params, rng):
+    """(log band intensities per spectrum, class per spectrum, donor per spectrum) before any distortion.
+
+    The positive class shifts the log intensity of the SERUM_EFFECT bands by ``effect`` donor
+    standard deviations (a Cohen's d of ``effect`` at donor level), times each band's direction.
+    """
     ratio = float(params.get("ratio", 10))
     donors, replicates = int(params.get("donors", 60)), int(params.get("replicates", 3))
-    effect, rng = float(params.get("effect", 1.0)), np.random.default_rng(int(params.get("seed", 0)))
+    effect = float(params.get("effect", 1.0))
     if ratio < 1:
         raise DatasetError(f"spectra:serum: ratio={ratio} must be at least 1 (majority over minority)")
     if donors < 2 or replicates < 1:
         raise DatasetError("spectra:serum: needs donors >= 2 and replicates >= 1")
-    axis = wavenumbers(params.get("region", "full"), params.get("step", 4))
-    per_class = _groups_per_class(donors, [ratio, 1.0])
-    donor_class = np.repeat([0, 1], per_class)
-    donor_sd, replicate_sd = 0.15, 0.04
+    donor_class = np.repeat([0, 1], _groups_per_class(donors, [ratio, 1.0]))
     shift = np.zeros(len(SERUM_BANDS))
     for index, direction in SERUM_EFFECT:
-        shift[index] = effect * donor_sd * direction
+        shift[index] = effect * SERUM_DONOR_SD * direction
     group_of = np.repeat(np.arange(donors), replicates)
     log_amp = (np.log([b.height for b in SERUM_BANDS])
                + donor_class[group_of][:, None] * shift
-               + rng.normal(0, donor_sd, (donors, len(SERUM_BANDS)))[group_of]
-               + rng.normal(0, replicate_sd, (len(group_of), len(SERUM_BANDS))))
+               + rng.normal(0, SERUM_DONOR_SD, (donors, len(SERUM_BANDS)))[group_of]
+               + rng.normal(0, SERUM_REPLICATE_SD, (len(group_of), len(SERUM_BANDS))))
+    return log_amp, donor_class[group_of], group_of
+
+
+def serum(params):
+    """Binary serum-film screening set; see the module docstring."""
+    rng = np.random.default_rng(int(params.get("seed", 0)))
+    axis = wavenumbers(params.get("region", "full"), params.get("step", 4))
+    log_amp, labels, group_of = serum_amplitudes(params, rng)
     pure = np.exp(log_amp) @ _shapes(axis, SERUM_BANDS)
-    X = _noise(_distort(pure, axis, group_of, rng), params.get("snr", 300), rng)
-    return X, donor_class[group_of], ("negative", "positive"), group_of, "donor"
+    X = _finish(pure, axis, group_of, params, rng, snr=300, scatter=0.05, baseline=0.03)
+    return X, labels, ("negative", "positive"), group_of, "donor"
+
+
+def _finish(pure, axis, group_of, params, rng, snr, scatter, baseline):
+    """Distortions, optional water-vapour lines, then noise at the asked signal-to-noise ratio."""
+    spectra = _distort(pure, axis, group_of, rng, scatter=scatter, baseline=baseline)
+    water = float(params.get("water", 0))
+    if water > 0:
+        spectra = spectra + _water_lines(axis, len(spectra), 0.05 * water, rng)
+    return _noise(spectra, params.get("snr", snr), rng)
 
 
 def polymers(params):
@@ -164,16 +204,32 @@ def polymers(params):
         amps = np.array([b.height for b in bands]) * particle_amp[group_of[rows], : len(bands)]
         amps *= np.exp(rng.normal(0, 0.05, amps.shape))
         pure[rows] = amps @ _shapes(axis, bands)
+    pure = _admix(pure, particle_class, group_of, float(params.get("purity", 0.7)), rng)
     oxidation = rng.exponential(0.15 * weathering, particles)[group_of]
+    biofilm = rng.exponential(0.1 * weathering, particles)[group_of]
     pure += oxidation[:, None] * _shapes(axis, [CARBONYL_WEATHERING])[0]
-    X = _noise(_distort(pure, axis, group_of, rng, scatter=0.15, baseline=0.06), params.get("snr", 150), rng)
+    pure += biofilm[:, None] * (np.array([b.height for b in BIOFILM_BANDS]) @ _shapes(axis, BIOFILM_BANDS))
+    X = _finish(pure, axis, group_of, params, rng, snr=80, scatter=0.15, baseline=0.06)
     return X, particle_class[group_of], POLYMER_ABUNDANCE_ORDER, group_of, "particle"
+
+
+def _admix(pure, particle_class, group_of, purity, rng):
+    """Each particle's spectrum mixed with a random other particle's at fraction U(0, 1 - purity):
+    fragments of blends and co-deposited debris make the polymer classes overlap."""
+    if not 0 < purity <= 1:
+        raise DatasetError(f"spectra:polymers: purity={purity} must lie in (0, 1]")
+    particles = particle_class.size
+    partner = rng.integers(0, particles, particles)
+    share = rng.uniform(0, 1 - purity, particles)
+    first_row = np.searchsorted(group_of, np.arange(particles))
+    mixed = pure * (1 - share[group_of])[:, None] + pure[first_row[partner]][group_of] * share[group_of][:, None]
+    return mixed
 
 
 PRESETS = {
     "serum": (serum, {"ratio", "donors", "replicates", "effect"},
               "dried serum films, binary screening, rare positive donors (3 replicates each)"),
-    "polymers": (polymers, {"ratio", "particles", "spectra", "weathering", "positive"},
+    "polymers": (polymers, {"ratio", "particles", "spectra", "weathering", "purity", "positive"},
                  "micro-plastic particles, 6 polymers, long-tailed abundance"),
 }
 

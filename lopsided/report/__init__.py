@@ -42,19 +42,24 @@ def _slug(*parts):
 
 
 def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
-    """Comparisons per protocol point: all combinations and per learner, CD plots written to figures_dir."""
+    """Comparisons per protocol point, across all combinations and per learner; CD plots to figures_dir.
+
+    Every listed metric is compared at the first point, the headline metric (first listed) at the
+    others. Within one learner, the first listed resampler is the control of the Bonferroni-Dunn test.
+    """
     sections, stats = [], {}
+    control = suite["resamplers"][0]["label"]
+    learners = [s["label"] for s in suite["learners"]]
     for index, (ratio, size) in enumerate(points_of(scores, suite["protocol"])):
         point = f"ratio={ratio}, size={size}"
-        metrics = suite["metrics"] if index == 0 else suite["metrics"][:1]
-        learners = [s["label"] for s in suite["learners"]]
-        for metric in metrics:
-            for learner in [None, *learners] if metric == suite["metrics"][0] else [None]:
+        for metric in suite["metrics"] if index == 0 else suite["metrics"][:1]:
+            for learner in [None, *learners]:
                 view = "all combinations" if learner is None else f"resamplers with {learner}"
                 matrix = method_matrix(scores, metric, ratio, size, learner)
                 entry = {"point": point, "metric": metric, "view": view, "learner": learner}
                 try:
-                    result = compare(matrix, metric=metric, alpha=alpha, rope=rope)
+                    result = compare(matrix, metric=metric, alpha=alpha, rope=rope,
+                                     control=control if learner is not None and control in matrix.columns else None)
                 except AnalysisError as exc:
                     entry["note"] = str(exc)
                     sections.append(entry)
