@@ -205,3 +205,16 @@ def test_wilcoxon_agrees_with_scipy_on_every_branch(kind, n):
         if np.all(a == b):
             continue
         assert wilcoxon_p(a, b) == pytest.approx(stats.wilcoxon(a, b).pvalue, rel=1e-9, abs=1e-12)
+
+
+def test_claims_say_what_the_numbers_allow():
+    from lopsided.analysis.words import claims
+    rng = np.random.default_rng(1)
+    strong = pd.DataFrame(rng.normal(size=(20, 4)) * 0.01 + [0.9, 0.7, 0.5, 0.3], columns=["w", "x", "y", "z"])
+    text = " ".join(claims(compare(strong, control="z")))
+    assert "rejects equal performance" in text and "w ranks first and is significantly better" in text
+    assert "Against the control z (Bonferroni-Dunn" in text and "significantly better: w" in text
+    noise = pd.DataFrame(rng.normal(size=(6, 3)), columns=["a", "b", "c"])
+    text = " ".join(claims(compare(noise)))
+    assert "no significant difference among the 3 methods" in text
+    assert "Only 6 datasets" in text and "little power" in text

@@ -16,7 +16,10 @@ def claims(result):
                      f"(Iman-Davenport F = {f.iman_davenport_F:.3g}, p = {f.iman_davenport_p:.3g}; "
                      f"chi2_F = {f.chi2:.3g}, p = {f.p:.3g}; N = {n} datasets).")
     top = next((g for g in result.groups if best in g), [best])
-    if len(top) > 1:
+    if len(top) == k:
+        lines.append(f"No two of the {k} methods differ significantly by the Nemenyi test "
+                     f"(alpha = {a:g}, CD = {result.nemenyi.cd:.3g} ranks).")
+    elif len(top) > 1:
         lines.append(f"No significant difference (Nemenyi, alpha = {a:g}, CD = {result.nemenyi.cd:.3g}) among the top "
                      f"{len(top)}: {', '.join(top)}.")
     beaten = [m for m in result.methods[1:] if result.nemenyi_p.loc[best, m] < a]
@@ -30,8 +33,13 @@ def claims(result):
                   if p < a and result.average_ranks[m] < result.average_ranks[result.control]]
         worse = [m for m, p in result.bonferroni_dunn_p.items()
                  if p < a and result.average_ranks[m] > result.average_ranks[result.control]]
+        found = []
+        if better:
+            found.append(f"significantly better: {', '.join(better)}")
+        if worse:
+            found.append(f"significantly worse: {', '.join(worse)}")
         lines.append(f"Against the control {result.control} (Bonferroni-Dunn, CD = {result.bonferroni_dunn.cd:.3g}): "
-                     f"significantly better: {', '.join(better) or 'none'}; significantly worse: {', '.join(worse) or 'none'}.")
+                     + ("; ".join(found) if found else "no method differs significantly") + ".")
     equivalent = [(p["a"], p["b"]) for p in result.pairwise if p["bayes"]["rope"] >= 0.95]
     if equivalent:
         shown = "; ".join(f"{x} ~ {y}" for x, y in equivalent[:5])
