@@ -9,7 +9,7 @@ from . import __version__
 from . import resamplers as resampler_registry
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError
-from .report import skipped_summary, write_report
+from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import parse_method
 from .store import Store, now
@@ -51,8 +51,12 @@ def load_all(suite):
 
 
 def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_failed=False, progress=True,
-              alpha=0.05, rope=0.01):
-    """Run a suite file (or Suite) and write its leaderboard; stored cells are reused."""
+              alpha=0.05, rope=0.01, compare_split_leakage=False):
+    """Run a suite file (or Suite) and write its leaderboard; stored cells are reused.
+
+    ``compare_split_leakage`` also runs every grouped dataset with its groups ignored and reports
+    how much the leaky random split inflates the headline metric.
+    """
     suite = load_suite(path) if not hasattr(path, "protocol") else path
     suite = suite.with_resamplers(extra_resamplers(add_resamplers))
     if not isinstance(jobs, int) or jobs < 1:
@@ -62,12 +66,19 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_faile
     started, clock = now(), time.perf_counter()
     datasets = load_all(suite)
     full = plan(suite, datasets)
+    leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
     db = Store(store_path)
     try:
         run_id = db.begin_run(suite, full.keys)
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
         cells = db.cells(full.keys)
+        if leaky is not None:
+            extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
+            for key in ("reused", "computed", "failed"):     # the leakage run counts as work done, not planned
+                counts[key] += extra[key]
         summary = _summary(suite, datasets, full, cells, counts, started, time.perf_counter() - clock, jobs)
+        if leaky is not None:
+            summary["split_leakage"] = leakage_rows(cells, db.cells(leaky.keys), suite)
         db.finish_run(run_id, {**summary, "skipped": full.skipped})
     finally:
         db.close()

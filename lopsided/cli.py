@@ -24,6 +24,8 @@ def parser():
     run.add_argument("--add-resampler", action="append", default=[], metavar="SPEC",
                      help="extra resampler: name or package.module:Name[?param=value]; repeatable")
     run.add_argument("--retry-failed", action="store_true", help="recompute cells stored as failed")
+    run.add_argument("--compare-split-leakage", action="store_true",
+                     help="also run grouped datasets with groups ignored and report the inflation")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
     _stats_options(run)
 
@@ -78,7 +80,8 @@ def _run(args):
     from .benchmark import run_suite
     result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
                        add_resamplers=args.add_resampler, retry_failed=args.retry_failed,
-                       progress=not args.quiet, alpha=args.alpha, rope=args.rope)
+                       progress=not args.quiet, alpha=args.alpha, rope=args.rope,
+                       compare_split_leakage=args.compare_split_leakage)
     cells = result.summary["cells"]
     print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
           f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "

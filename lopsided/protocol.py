@@ -9,7 +9,11 @@ reflects size or ratio, not a fresh random draw.
 
 Ratio rule: the ratio is largest class : rarest class (the dataset's minority). Other
 classes keep their natural proportions to the largest class. 'natural' keeps every class
-in its natural proportion.
+in its natural proportion; 'balanced' gives every class the same number of rows (learning
+curves: sizes are then total rows, size / k per class).
+
+With ``holdout`` instead of folds, each repeat makes one split whose test part is one of
+round(1 / holdout) stratified (grouped) folds: a fixed, independent test set per repeat.
 """
 import hashlib
 import json
@@ -30,9 +34,12 @@ def point_label(value):
     return value if isinstance(value, str) else f"{value:g}"
 
 
-def fold_splits(dataset, folds, seed):
-    """[(train rows, test rows)] for one repeat: stratified, grouped when the data has groups."""
-    if dataset.groups is not None:
+def fold_splits(dataset, folds, seed, use_groups=True, holdout=None):
+    """[(train rows, test rows)] for one repeat: stratified, grouped when the data has groups
+    (unless ``use_groups`` is False: the leaky random split, for comparison only)."""
+    if holdout is not None:
+        return fold_splits(dataset, max(2, int(round(1.0 / holdout))), seed, use_groups)[:1]
+    if dataset.groups is not None and use_groups:
         splitter = StratifiedGroupKFold(n_splits=folds, shuffle=True, random_state=seed)
         pieces = splitter.split(dataset.X, dataset.y, groups=dataset.groups)
     else:
@@ -69,6 +76,9 @@ def point_counts(counts, minority, ratio, size, min_minority):
 
 def _point_counts(counts, minority, ratio, size):
     total = sum(counts.values())
+    if ratio == "balanced":
+        each = min(counts.values()) if size == "all" else size // len(counts)
+        return _fill(counts, {c: each for c in counts}, None)
     if ratio == "natural":
         if size == "all":
             return dict(counts)

@@ -64,8 +64,12 @@ def _hash(payload):
     return hashlib.sha256(json.dumps(payload, sort_keys=True, default=str).encode()).hexdigest()[:24]
 
 
-def plan(suite, datasets):
-    """Every cell of ``suite`` over the loaded ``datasets`` ({reference: Dataset}) plus skipped points."""
+def plan(suite, datasets, split="grouped"):
+    """Every cell of ``suite`` over the loaded ``datasets`` ({reference: Dataset}) plus skipped points.
+
+    ``split="random"`` plans the cells of the first protocol point with groups ignored (the leaky
+    split, to measure how much it inflates scores); only datasets with groups take part.
+    """
     versions = {
         "protocol": PROTOCOL_VERSION,
         "preprocessing": [code_version(preprocessing_registry.resolve(s.name)) for s in suite.preprocessing],
@@ -74,24 +78,32 @@ def plan(suite, datasets):
     }
     prep = [s.canonical for s in suite.preprocessing]
     result = Plan(units=[])
+    protocol = suite.protocol
     for reference in suite.datasets:
         data = datasets[reference]
-        for repeat in range(suite.protocol.repeats):
-            splits = fold_splits(data, suite.protocol.folds, derive_seed(suite.seed, reference, "split", repeat))
+        if split == "random" and data.groups is None:
+            continue
+        for repeat in range(protocol.repeats):
+            splits = fold_splits(data, protocol.folds, derive_seed(suite.seed, reference, "split", repeat),
+                                 use_groups=split == "grouped", holdout=protocol.holdout)
             for fold, (train, test) in enumerate(splits):
                 orders = class_orders(data.y, train, derive_seed(suite.seed, reference, "order", repeat, fold))
                 available = {c: len(rows) for c, rows in orders.items()}
-                for ratio, size in suite.protocol.points:
+                for ratio, size in protocol.points if split == "grouped" else protocol.points[:1]:
                     where = {"dataset": reference, "ratio": point_label(ratio), "size": point_label(size),
                              "repeat": repeat, "fold": fold}
-                    wanted = point_counts(available, data.minority, ratio, size, suite.protocol.min_minority)
+                    wanted = point_counts(available, data.minority, ratio, size, protocol.min_minority)
                     if isinstance(wanted, Infeasible):
                         result.skipped.append({**where, "reason": wanted.reason})
                         continue
                     rows = point_rows(orders, wanted)
                     for spec in suite.resamplers:
-                        coords = {**where, "dataset_checksum": data.checksum, "folds": suite.protocol.folds,
+                        coords = {**where, "dataset_checksum": data.checksum, "folds": protocol.folds,
                                   "suite_seed": suite.seed, "preprocessing": prep, "resampler": spec.canonical}
+                        if protocol.holdout is not None:
+                            coords["holdout"] = protocol.holdout
+                        if split != "grouped":
+                            coords["split"] = split
                         code = {**versions, "resampler": versions["resampler"][spec.canonical]}
                         cells = tuple(
                             Cell(learner, _hash({**coords, "learner": learner.canonical,

@@ -18,7 +18,8 @@ from .specs import MethodSpec, parse_method, parse_reference
 
 TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
             "preprocessing", "protocol", "store"}
-PROTOCOL_KEYS = {"repeats", "folds", "ratios", "sizes", "min_minority"}
+PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority"}
+RATIO_WORDS = ("natural", "balanced")
 METHOD_KEYS = {"name", "params", "label"}
 
 
@@ -26,12 +27,14 @@ METHOD_KEYS = {"name", "params", "label"}
 class Protocol:
     """Repeated stratified (grouped when the data has groups) k-fold, with sweep points.
 
-    ``ratios``: training-set imbalance ratios (majority:minority) to cut, or 'natural'.
+    ``ratios``: training-set imbalance ratios (majority:minority) to cut, 'natural' or 'balanced'.
     ``sizes``: training-set sizes, or 'all'. Every ratio x size pair is a protocol point.
+    ``holdout``: instead of k folds, one split per repeat with about this test share.
     """
 
     repeats: int = 3
     folds: int = 5
+    holdout: float | None = None
     ratios: tuple = ("natural",)
     sizes: tuple = ("all",)
     min_minority: int = 5
@@ -78,6 +81,7 @@ class Suite:
             "preprocessing": [_spec_dict(s) for s in self.preprocessing],
             "metrics": list(self.metrics),
             "protocol": {"repeats": self.protocol.repeats, "folds": self.protocol.folds,
+                         "holdout": self.protocol.holdout,
                          "ratios": list(self.protocol.ratios), "sizes": list(self.protocol.sizes),
                          "min_minority": self.protocol.min_minority},
         }
@@ -209,15 +213,19 @@ def _protocol(table, source):
     min_minority = _whole(table.get("min_minority", defaults.min_minority), source, "protocol.min_minority", 2)
     ratios = _list(table.get("ratios", list(defaults.ratios)), source, "protocol.ratios")
     for value in ratios:
-        if value != "natural" and (isinstance(value, bool) or not isinstance(value, (int, float)) or value < 1):
-            raise SuiteError(source, "protocol.ratios",
-                             f"{value!r} is not an imbalance ratio; allowed: \"natural\" or a number >= 1 (majority:minority)")
+        if value not in RATIO_WORDS and (isinstance(value, bool) or not isinstance(value, (int, float)) or value < 1):
+            raise SuiteError(source, "protocol.ratios", f"{value!r} is not an imbalance ratio; allowed: "
+                             "\"natural\", \"balanced\" or a number >= 1 (majority:minority)")
     sizes = _list(table.get("sizes", list(defaults.sizes)), source, "protocol.sizes")
     for value in sizes:
         if value != "all" and (isinstance(value, bool) or not isinstance(value, int) or value < 2 * min_minority):
             raise SuiteError(source, "protocol.sizes",
                              f"{value!r} is not a training-set size; allowed: \"all\" or a whole number >= {2 * min_minority}")
-    return Protocol(repeats, folds, tuple(ratios), tuple(sizes), min_minority)
+    holdout = table.get("holdout")
+    if holdout is not None and (isinstance(holdout, bool) or not isinstance(holdout, (int, float))
+                                or not 0 < holdout < 1):
+        raise SuiteError(source, "protocol.holdout", f"{holdout!r} is not a test share between 0 and 1")
+    return Protocol(repeats, folds, holdout, tuple(ratios), tuple(sizes), min_minority)
 
 
 def _whole(value, source, field, lowest):

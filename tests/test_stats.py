@@ -218,3 +218,11 @@ def test_claims_say_what_the_numbers_allow():
     text = " ".join(claims(compare(noise)))
     assert "no significant difference among the 3 methods" in text
     assert "Only 6 datasets" in text and "little power" in text
+
+
+def test_a_method_without_any_score_is_dropped_not_every_dataset():
+    table = random_scores(n=8, k=4)
+    table["m2"] = np.nan
+    result = compare(table)
+    assert result.friedman.n_datasets == 8 and result.friedman.n_methods == 3
+    assert result.dropped == ["m2 (no scores)"]

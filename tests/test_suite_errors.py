@@ -34,7 +34,7 @@ def test_unknown_learner_and_parameter(write_suite):
     assert "learners[1].params" in message and "did you mean 'n_estimators'?" in message
 
 
-@pytest.mark.parametrize("ratios", ['[-2]', '[0.5]', '["balanced"]', '[]', '[2, 2]'])
+@pytest.mark.parametrize("ratios", ['[-2]', '[0.5]', '["even"]', '[]', '[2, 2]'])
 def test_bad_ratio_is_named(write_suite, ratios):
     message = error_of(write_suite(ratios=ratios))
     assert "tiny.toml: protocol.ratios:" in message

@@ -75,12 +75,19 @@ def _finite(value):
 
 
 def apply_missing_policy(matrix, policy):
-    """Remove incomplete datasets (rows) or methods (columns); never impute. Returns (table, dropped)."""
+    """Remove incomplete datasets (rows) or methods (columns); never impute. Returns (table, dropped).
+
+    A method with no score on any dataset is always removed first (it cannot be ranked, and under
+    drop-datasets it would otherwise remove every dataset); it is listed among the dropped.
+    """
     if policy not in MISSING_POLICIES:
         raise AnalysisError(unknown("missing-cell policy", policy, MISSING_POLICIES))
+    empty = matrix.isna().all(axis=0)
+    dropped = [f"{m} (no scores)" for m in empty[empty].index]
+    matrix = matrix.loc[:, ~empty]
     axis = 1 if policy == "drop-datasets" else 0
     incomplete = matrix.isna().any(axis=axis)
-    dropped = [str(x) for x in incomplete[incomplete].index]
+    dropped += [str(x) for x in incomplete[incomplete].index]
     kept = matrix.loc[~incomplete] if axis == 1 else matrix.loc[:, ~incomplete]
     return kept, dropped
 

@@ -51,7 +51,6 @@ def claims(result):
     lines.append("Nemenyi is conservative (it controls all k(k-1)/2 comparisons at once); for a few planned pairs "
                  "use the Holm-corrected Wilcoxon p-values, and the Bayesian probabilities for practical relevance.")
     if result.dropped:
-        what = "datasets" if result.missing_policy == "drop-datasets" else "methods"
-        lines.append(f"Left out because a method failed or was missing there ({what}): {', '.join(result.dropped)}.")
+        lines.append(f"Left out because scores were missing (failed or not run), never imputed: {', '.join(result.dropped)}.")
     lines.append("Rankings assume the datasets are independent; sets cut from the same original data are not.")
     return lines

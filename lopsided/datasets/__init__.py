@@ -7,12 +7,14 @@ from functools import lru_cache
 
 from ..errors import DatasetError, unknown
 from ..specs import parse_reference
-from . import bundled, files, spectra
+from . import bundled, files, jcampdx, measured, spectra
 
 ADAPTERS = {
     "sklearn": (bundled.load, "scikit-learn's bundled toy sets, one-vs-rest with ?positive= (smoke tests only)"),
     "spectra": (spectra.load, "synthetic mid-infrared spectra with donors/particles: " + ", ".join(spectra.PRESETS)),
     "file": (files.load, "your own CSV table: ?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]"),
+    "measured": (measured.load, "real infrared spectra shipped by a dependency: coffee (?positive=&keep= induces imbalance)"),
+    "jcamp": (jcampdx.load, "a folder of JCAMP-DX spectra with a label table: ?labels=FILE.csv&label=COLUMN"),
 }
 
 
@@ -29,5 +31,7 @@ def available():
     """Rows of (reference example, description) for `lopsided list datasets`."""
     rows = [(f"sklearn:{name}?positive=CLASS", text) for name, (_, text) in bundled.LOADERS.items()]
     rows += [(f"spectra:{name}", text) for name, (_, _, text) in spectra.PRESETS.items()]
+    rows.append(("measured:coffee?positive=Vietnam&keep=5", measured.SETS["coffee"] + "; imbalance induced"))
     rows.append(("file:PATH.csv?label=COLUMN", ADAPTERS["file"][1]))
+    rows.append(("jcamp:FOLDER?labels=labels.csv&label=COLUMN", ADAPTERS["jcamp"][1]))
     return rows

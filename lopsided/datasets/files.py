@@ -1,7 +1,8 @@
 """``file:PATH?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]``: a user's own table.
 
-CSV (any delimiter pandas sniffs from the extension: .csv, .tsv) with one label column;
-every other column must be numeric unless dropped. Missing values stay NaN.
+CSV (.csv, or tab-separated .tsv) with one label column; every other column must be numeric
+unless dropped. Missing values stay NaN. Spectra layout: when every feature column's header is a
+number, the headers are the feature axis (wavenumbers, cm-1), so spectral range selection works.
 """
 import hashlib
 from pathlib import Path
@@ -45,9 +46,18 @@ def load(ref):
         y=y,
         classes=classes,
         groups=groups,
+        axis=_numeric_headers(features.columns),
         provenance=Provenance(source=str(path), version=_sha256(path)[:16], family=path.stem),
         feature_names=tuple(str(c) for c in features.columns),
     )
+
+
+def _numeric_headers(columns):
+    """The headers as a float axis when all of them are numbers, else None."""
+    try:
+        return np.array([float(c) for c in columns])
+    except ValueError:
+        return None
 
 
 def _read(path):

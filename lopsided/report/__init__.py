@@ -18,6 +18,7 @@ from ..analysis import AnalysisError, compare
 from ..analysis.cdplot import draw
 from ..analysis.words import claims
 from ..metrics import METRICS
+from ..protocol import point_label
 from ..specs import MethodSpec
 from .figures import sweep
 from .tables import COMBINED, method_matrix, points_of, scores_table, with_titles
@@ -89,17 +90,48 @@ def _leaderboard_rows(result, scores, ratio, size, learner, metrics):
     return out
 
 
+SWEEP_METRICS = ("sensitivity", "specificity")   # recall of the minority class and of the rest
+
+
 def _sweeps(suite, scores, figures_dir):
+    """Headline metric, then minority and majority recall, against ratio and against size."""
     paths = []
     order = [s["label"] for s in suite["resamplers"]]
-    metric = suite["metrics"][0]
+    metrics = list(dict.fromkeys([suite["metrics"][0], *SWEEP_METRICS]))
     for axis, fixed_values in (("ratio", suite["protocol"]["sizes"]), ("size", suite["protocol"]["ratios"])):
         for fixed in fixed_values:
-            label = fixed if isinstance(fixed, str) else f"{fixed:g}"
-            made = sweep(scores, metric, axis, label, order, str(figures_dir / _slug("sweep", axis, label)))
-            if made:
-                paths.append({"axis": axis, "fixed": label, "figure": f"figures/{Path(made[0]).name}"})
+            label = point_label(fixed)
+            for metric in metrics:
+                stem = figures_dir / _slug("sweep", metric, axis, label)
+                made = sweep(scores, metric, axis, label, order, str(stem))
+                if made:
+                    paths.append({"axis": axis, "fixed": label, "metric": metric,
+                                  "figure": f"figures/{Path(made[0]).name}"})
     return paths
+
+
+def leakage_rows(grouped_cells, random_cells, suite):
+    """Headline metric per dataset and learner under the grouped split and with groups ignored.
+
+    Averaged over resamplers, repeats and folds at the first protocol point; the difference is how
+    much a split that lets a donor / particle sit on both sides would have inflated the score.
+    """
+    metric = suite.headline
+    titles = _titles(suite.as_dict())
+    first = suite.protocol.points[0]
+    label = (point_label(first[0]), point_label(first[1]))
+    rows = []
+    grouped, leaky = (with_titles(c[c["status"] == "ok"], titles) for c in (grouped_cells, random_cells))
+    for (dataset, learner), part in leaky.groupby(["dataset", "learner"], sort=True):
+        part = part[(part["ratio"] == label[0]) & (part["size"] == label[1])]
+        honest = grouped[(grouped["dataset"] == dataset) & (grouped["learner"] == learner)
+                         & (grouped["ratio"] == label[0]) & (grouped["size"] == label[1])]
+        if part.empty or honest.empty:
+            continue
+        rows.append({"dataset": dataset, "learner": learner, "metric": metric,
+                     "grouped": float(honest[metric].mean()), "random": float(part[metric].mean()),
+                     "inflation": float(part[metric].mean() - honest[metric].mean())})
+    return rows
 
 
 def skipped_summary(skipped):
@@ -126,6 +158,7 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
             "suite": suite, "summary": summary, "caution": CAUTION, "sections": sections,
             "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
             "failures": _failures(titled), "metric_text": METRICS, "version": __version__,
+            "leakage": summary.get("split_leakage", []),
             "svg": lambda rel: (staging / rel).read_text(encoding="utf-8"),
         }
         (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context), encoding="utf-8")

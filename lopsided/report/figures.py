@@ -4,6 +4,7 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 from matplotlib.ticker import NullFormatter  # noqa: E402
+import pandas as pd  # noqa: E402
 
 # Our palette: distinguishable in print and for the common colour-vision deficiencies.
 COLOURS = ["#1d2935", "#2f7f79", "#c8553d", "#d9a441", "#6c5b9b", "#4c8fc6", "#8a9a5b", "#b5678d",
@@ -14,11 +15,10 @@ def sweep(scores, metric, axis, fixed, order, stem):
     """Mean ``metric`` over datasets (line) against ``axis`` ('ratio' or 'size') at the ``fixed``
     value of the other, with a band of +/- the mean sd over repeats and folds; SVG + PNG."""
     other = "size" if axis == "ratio" else "ratio"
-    rows = scores[(scores[other] == fixed) & (scores[axis] != ("natural" if axis == "ratio" else "all"))]
-    rows = rows[rows["n_failed"] == 0]
-    if rows[axis].nunique() < 2:
+    rows = scores[(scores[other] == fixed) & (scores["n_failed"] == 0)]
+    rows = rows.assign(x=pd.to_numeric(rows[axis], errors="coerce")).dropna(subset=["x"])   # numeric points only
+    if rows["x"].nunique() < 2:
         return None
-    rows = rows.assign(x=rows[axis].astype(float))
     learners = list(dict.fromkeys(rows["learner"]))
     fig, axes = plt.subplots(1, len(learners), figsize=(3.4 * len(learners) + 1.6, 3.2), sharey=True, squeeze=False)
     for ax, learner in zip(axes[0], learners):

@@ -1,0 +1,74 @@
+"""``jcamp:FOLDER?labels=TABLE.csv&label=COLUMN[&group=COLUMN&positive=CLASS]``: JCAMP-DX spectra.
+
+JCAMP-DX is the IUPAC open exchange format for spectra (McDonald & Wilks 1988, Appl. Spectrosc.
+42:151). Each file holds one spectrum; the label table (CSV, path relative to FOLDER unless absolute)
+has a ``file`` column naming each file plus the label and optional group columns. Files are read
+with the ``jcamp`` package; every spectrum must share the first one's x axis (no silent interpolation).
+"""
+import hashlib
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..dataset import Dataset, Provenance
+from ..errors import DatasetError, did_you_mean
+from .labels import encode
+
+ALLOWED = {"labels", "label", "group", "positive"}
+
+
+def read_spectrum(path):
+    """(x, y) of one JCAMP-DX file, or a DatasetError naming the file."""
+    import jcamp
+    try:
+        record = jcamp.readfile(str(path))
+        x, y = np.asarray(record["x"], dtype=float), np.asarray(record["y"], dtype=float)
+    except Exception as exc:   # the reader raises many kinds of errors on malformed files
+        raise DatasetError(f"{path}: not a readable JCAMP-DX spectrum ({type(exc).__name__}: {exc})") from None
+    if x.ndim != 1 or len(x) != len(y) or len(x) < 2:
+        raise DatasetError(f"{path}: JCAMP-DX file holds no x/y data table")
+    return x, y
+
+
+def load(ref):
+    folder = Path(ref.body)
+    extra = set(ref.params) - ALLOWED
+    if extra:
+        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    if not folder.is_dir():
+        raise DatasetError(f"{folder}: no such folder of JCAMP-DX files")
+    for needed in ("labels", "label"):
+        if needed not in ref.params:
+            raise DatasetError(f"{ref.text}: say {needed}=..., e.g. ?labels=labels.csv&label=class")
+    table_path = Path(ref.params["labels"])
+    table_path = table_path if table_path.is_absolute() else folder / table_path
+    if not table_path.is_file():
+        raise DatasetError(f"{table_path}: no such label table")
+    table = pd.read_csv(table_path)
+    for column in ["file", ref.params["label"], ref.params.get("group")]:
+        if column is not None and column not in table.columns:
+            raise DatasetError(f"{table_path}: no column {column!r}{did_you_mean(column, table.columns)}")
+    axis, rows, digest = None, [], hashlib.sha256()
+    for name in table["file"]:
+        path = folder / str(name)
+        if not path.is_file():
+            raise DatasetError(f"{table_path}: file {name!r} listed but not found in {folder}")
+        x, y = read_spectrum(path)
+        digest.update(path.read_bytes())
+        if axis is None:
+            axis = x
+        elif len(x) != len(axis) or not np.allclose(x, axis, rtol=1e-6, atol=1e-9):
+            raise DatasetError(f"{path}: its x axis differs from {table['file'].iloc[0]}'s; "
+                               "resample all spectra to one axis first")
+        rows.append(y)
+    labels, classes = encode(table[ref.params["label"]].to_numpy(), ref.params.get("positive"),
+                             where=f"{table_path}: column {ref.params['label']!r}")
+    group = ref.params.get("group")
+    return Dataset(
+        name=folder.name, X=np.vstack(rows), y=labels, classes=classes,
+        groups=table[group].astype(str).to_numpy() if group else None, axis=axis,
+        provenance=Provenance(source=str(folder), version=digest.hexdigest()[:16], family=folder.name,
+                              note="JCAMP-DX spectra"),
+        feature_names=tuple(f"{v:g}" for v in axis),
+    )

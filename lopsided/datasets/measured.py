@@ -1,0 +1,51 @@
+"""``measured:coffee?positive=CLASS&keep=N&seed=S``: real infrared spectra shipped by a package we depend on.
+
+coffee: 60 ATR-FTIR spectra of roasted coffee from three origins (Brasil, Ethiopia, Vietnam; 20 each),
+as distributed with chemotools (``chemotools.datasets.load_coffee``). The file gives no wavenumber axis,
+so features are indexed by position. With ``positive`` the task is one-vs-rest; ``keep`` keeps only N
+spectra of the positive class (chosen at random with ``seed``): an imbalance induced by us, not measured.
+"""
+import numpy as np
+
+from ..dataset import Dataset, Provenance
+from ..errors import DatasetError, unknown
+from .labels import encode
+
+SETS = {"coffee": "60 ATR-FTIR spectra of coffee, 3 origins (chemotools)"}
+ALLOWED = {"positive", "keep", "seed"}
+
+
+def load(ref):
+    if ref.body not in SETS:
+        raise DatasetError(f"{ref.text}: {unknown('measured set', ref.body, SETS)}")
+    extra = set(ref.params) - ALLOWED
+    if extra:
+        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    from chemotools.datasets import load_coffee
+    spectra, labels = load_coffee()
+    X = spectra.to_numpy(dtype=np.float64)
+    raw = labels.iloc[:, 0].astype(str).to_numpy()
+    positive = ref.params.get("positive")
+    y, classes = encode(raw, positive, where=ref.text)
+    note = "measured spectra"
+    if "keep" in ref.params:
+        if positive is None:
+            raise DatasetError(f"{ref.text}: keep= needs positive= (which class to thin out)")
+        keep = int(ref.params["keep"])
+        members = np.flatnonzero(y == 1)
+        if not 1 <= keep <= len(members):
+            raise DatasetError(f"{ref.text}: keep={keep} must be between 1 and {len(members)}")
+        rng = np.random.default_rng(int(ref.params.get("seed", 0)))
+        dropped = rng.choice(members, len(members) - keep, replace=False)
+        rows = np.setdiff1d(np.arange(len(y)), dropped)
+        X, y = X[rows], y[rows]
+        note = f"measured spectra; imbalance INDUCED by keeping {keep} of {len(members)} {positive} spectra"
+    query = ",".join(f"{k}={v}" for k, v in sorted(ref.params.items()))
+    return Dataset(
+        name=f"coffee[{query}]" if query else "coffee",
+        X=X, y=y, classes=classes,
+        provenance=Provenance(source="chemotools.datasets.load_coffee (ATR-FTIR)", version="chemotools 0.5",
+                              citation="Cabaneros Lopez et al., chemotools; coffee spectra as distributed with it",
+                              licence="as distributed with chemotools (MIT)", family="coffee", note=note),
+        feature_names=tuple(str(c) for c in spectra.columns),
+    )
