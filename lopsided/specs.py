@@ -90,4 +90,5 @@ def parse_reference(text):
         scheme, rest = "", text
     rest, _, fragment = rest.partition("#")
     body, params = split_query(rest)
-    return Reference(scheme.strip(), body, params, fragment.strip(), text.strip())
+    fragment, fragment_params = split_query(fragment)      # 'dir#name?x=1' reads like 'dir?x=1#name'
+    return Reference(scheme.strip(), body, {**params, **fragment_params}, fragment, text.strip())

@@ -17,7 +17,8 @@ SCHEMA_VERSION = 1
 CELL_COLUMNS = (
     ("key", "TEXT PRIMARY KEY"), ("unit_key", "TEXT"), ("dataset", "TEXT"), ("dataset_checksum", "TEXT"),
     ("preprocessing", "TEXT"), ("ratio", "TEXT"), ("size", "TEXT"), ("repeat", "INTEGER"), ("fold", "INTEGER"),
-    ("resampler", "TEXT"), ("learner", "TEXT"), ("status", "TEXT"), ("error", "TEXT"), ("metrics", "TEXT"),
+    ("resampler", "TEXT"), ("learner", "TEXT"), ("status", "TEXT"), ("error", "TEXT"), ("warning", "TEXT"),
+    ("metrics", "TEXT"),
     ("n_train", "INTEGER"), ("n_train_minority", "INTEGER"), ("n_resampled", "INTEGER"), ("n_test", "INTEGER"),
     ("resample_seconds", "REAL"), ("fit_seconds", "REAL"), ("predict_seconds", "REAL"),
     ("code_version", "TEXT"), ("seed", "INTEGER"), ("finished_at", "TEXT"),

@@ -7,12 +7,14 @@ from functools import lru_cache
 
 from ..errors import DatasetError, unknown
 from ..specs import parse_reference
-from . import bundled, files, jcampdx, measured, spectra
+from . import bundled, files, jcampdx, keel, measured, openml_source, spectra
 
 ADAPTERS = {
     "sklearn": (bundled.load, "scikit-learn's bundled toy sets, one-vs-rest with ?positive= (smoke tests only)"),
     "spectra": (spectra.load, "synthetic mid-infrared spectra with donors/particles: " + ", ".join(spectra.PRESETS)),
     "file": (files.load, "your own CSV table: ?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]"),
+    "keel": (keel.load, "the KEEL imbalanced collection (keel:NAME), or your KEEL files (keel:PATH#NAME)"),
+    "openml": (openml_source.load, "an OpenML dataset by integer id: openml:ID[?target=NAME&positive=CLASS]"),
     "measured": (measured.load, "real infrared spectra shipped by a dependency: coffee (?positive=&keep= induces imbalance)"),
     "jcamp": (jcampdx.load, "a folder of JCAMP-DX spectra with a label table: ?labels=FILE.csv&label=COLUMN"),
 }

@@ -1,8 +1,10 @@
-"""``file:PATH?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b]``: a user's own table.
+"""``file:PATH?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b&nominal=c,d]``: a user's own table.
 
-CSV (.csv, or tab-separated .tsv) with one label column; every other column must be numeric
-unless dropped. Missing values stay NaN. Spectra layout: when every feature column's header is a
-number, the headers are the feature axis (wavenumbers, cm-1), so spectral range selection works.
+CSV (.csv, tab-separated .tsv), Parquet (.parquet) or ARFF / KEEL text (.arff, .dat) with one label
+column; every other column must be numeric unless dropped or declared nominal (``nominal=`` columns
+become integer codes in sorted order; ARFF / KEEL nominal attributes keep their declared order).
+Missing values stay NaN. Spectra layout: when every feature column's header is a number, the headers
+are the feature axis (wavenumbers, cm-1), so spectral range selection works.
 """
 import hashlib
 from pathlib import Path
@@ -12,9 +14,10 @@ import pandas as pd
 
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
+from .keelformat import parse_keel
 from .labels import encode
 
-ALLOWED = {"label", "group", "positive", "drop"}
+ALLOWED = {"label", "group", "positive", "drop", "nominal"}
 
 
 def load(ref):
@@ -24,15 +27,21 @@ def load(ref):
         raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
     if not path.is_file():
         raise DatasetError(f"{path}: no such file")
-    table = _read(path)
     label = ref.params.get("label")
     if label is None:
         raise DatasetError(f"{ref.text}: say which column holds the class, e.g. ?label=class")
+    table, declared = _read(path, label)
     _require_columns(path, table, [label, ref.params.get("group")])
     dropped = [c for c in str(ref.params.get("drop", "")).split(",") if c]
     _require_columns(path, table, dropped)
     groups = table[ref.params["group"]].astype(str).to_numpy() if "group" in ref.params else None
     features = table.drop(columns=[c for c in [label, ref.params.get("group"), *dropped] if c])
+    nominal_names = [c for c in str(ref.params.get("nominal", "")).split(",") if c]
+    _require_columns(path, table, nominal_names)
+    for column in nominal_names:
+        features[column] = pd.Categorical(features[column].astype("string")).codes.astype(float)
+        features.loc[features[column] < 0, column] = np.nan
+    nominal = sorted({list(features.columns).index(c) for c in [*nominal_names, *declared] if c in features.columns})
     non_numeric = [c for c in features.columns if not pd.api.types.is_numeric_dtype(features[c])]
     if non_numeric:
         raise DatasetError(f"{path}: column {non_numeric[0]!r} is not numeric; drop it with ?drop={non_numeric[0]}")
@@ -47,6 +56,7 @@ def load(ref):
         classes=classes,
         groups=groups,
         axis=_numeric_headers(features.columns),
+        nominal=tuple(nominal),
         provenance=Provenance(source=str(path), version=_sha256(path)[:16], family=path.stem),
         feature_names=tuple(str(c) for c in features.columns),
     )
@@ -60,14 +70,25 @@ def _numeric_headers(columns):
         return None
 
 
-def _read(path):
+def _read(path, label):
+    """(table, names of declared nominal columns) for any supported file type."""
+    suffix = path.suffix.lower()
+    declared = []
     try:
-        table = pd.read_csv(path, sep="\t" if path.suffix.lower() == ".tsv" else ",")
-    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as exc:
-        raise DatasetError(f"{path}: not a readable CSV table ({exc})") from None
+        if suffix in (".arff", ".dat"):
+            parsed = parse_keel(path.read_text(encoding="latin-1"), where=str(path), target=label)
+            table = pd.DataFrame(parsed.X, columns=parsed.names)
+            table[label] = parsed.labels
+            declared = [parsed.names[i] for i in parsed.nominal]
+        elif suffix == ".parquet":
+            table = pd.read_parquet(path)
+        else:
+            table = pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
+    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError, OSError, ValueError) as exc:
+        raise DatasetError(f"{path}: not a readable {suffix.lstrip('.') or 'CSV'} table ({exc})") from None
     if table.empty:
         raise DatasetError(f"{path}: the table has no rows")
-    return table
+    return table, declared
 
 
 def _require_columns(path, table, columns):

@@ -157,7 +157,7 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
         context = {
             "suite": suite, "summary": summary, "caution": CAUTION, "sections": sections,
             "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
-            "failures": _failures(titled), "metric_text": METRICS, "version": __version__,
+            "failures": _notes(titled, "error"), "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
             "leakage": summary.get("split_leakage", []),
             "svg": lambda rel: (staging / rel).read_text(encoding="utf-8"),
         }
@@ -174,12 +174,13 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
     return out
 
 
-def _failures(cells):
-    failed = cells[cells["status"] != "ok"]
-    if failed.empty:
+def _notes(cells, column):
+    """Cells with text in ``column`` ('error' or 'warning'), grouped by method, with the first text."""
+    if column not in cells.columns:
         return []
-    grouped = failed.groupby(["resampler", "learner"], sort=True)
-    return [{"resampler": r, "learner": l, "cells": len(g), "error": g["error"].iloc[0]} for (r, l), g in grouped]
+    noted = cells[cells[column].notna()]
+    grouped = noted.groupby(["resampler", "learner"], sort=True)
+    return [{"resampler": r, "learner": l, "cells": len(g), "text": g[column].iloc[0]} for (r, l), g in grouped]
 
 
 def _move_into_place(staging, out):
