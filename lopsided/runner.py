@@ -221,15 +221,42 @@ def pending(full_plan, stored):
     return todo
 
 
+class LogProgress:
+    """Progress for logs (CI, files): one plain line every ``every`` seconds with counts and ETA."""
+
+    def __init__(self, total, name, every=15.0, quiet=False):
+        self.total, self.name, self.every, self.quiet = total, name, every, quiet
+        self.done, self.started = 0, time.perf_counter()
+        self.last, self.note = self.started, ""
+
+    def update(self, n):
+        self.done += n
+        now_ = time.perf_counter()
+        if not self.quiet and (now_ - self.last >= self.every or self.done == self.total):
+            self.last = now_
+            rate = self.done / max(now_ - self.started, 1e-9)
+            eta = (self.total - self.done) / rate if rate > 0 else float("inf")
+            print(f"{self.name}: {self.done}/{self.total} cells ({100 * self.done / max(self.total, 1):.0f}%), "
+                  f"{rate:.1f} cells/s, ETA {eta / 60:.1f} min{self.note}", file=sys.stderr, flush=True)
+
+    def set_postfix(self, failed, refresh=False):
+        self.note = f", {failed} failed" if failed else ""
+
+    def close(self):
+        pass
+
+
 def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True):
     """Compute what is missing from ``store``; return counts {planned, reused, computed, failed, skipped}."""
     stored = store.known_keys(full_plan.keys, include_failed=not retry_failed)
     todo = pending(full_plan, stored)
     counts = {"planned": len(full_plan.keys), "reused": len(stored), "computed": 0, "failed": 0,
               "skipped_points": len(full_plan.skipped)}
-    interactive = sys.stderr.isatty()       # in logs (CI), a line every 15 s instead of a live bar
-    bar = tqdm(total=sum(len(u.cells) for u in todo), unit="cell", disable=not progress, desc=suite.name,
-               mininterval=0.5 if interactive else 15.0, file=sys.stderr, dynamic_ncols=interactive)
+    total = sum(len(u.cells) for u in todo)
+    if progress and sys.stderr.isatty():
+        bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr, dynamic_ncols=True)
+    else:
+        bar = LogProgress(total, suite.name, quiet=not progress)
 
     def on_done(unit, rows):
         store.write_unit(rows)
