@@ -19,7 +19,6 @@ import textwrap
 import time
 from pathlib import Path
 
-import numpy as np
 from sklearn.metrics import average_precision_score, balanced_accuracy_score, matthews_corrcoef, roc_auc_score
 
 from lopsided.benchmark import load_all, run_suite

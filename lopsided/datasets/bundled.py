@@ -10,6 +10,7 @@ from sklearn import datasets as skdata
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
 from .labels import encode
+from .params import refuse_unknown
 
 LOADERS = {
     "digits": (skdata.load_digits, "UCI optical recognition of handwritten digits (8x8 images), 10 classes"),
@@ -22,9 +23,7 @@ CITATION = "Dua & Graff, UCI Machine Learning Repository; bundled with scikit-le
 def load(ref):
     if ref.body not in LOADERS:
         raise DatasetError(f"{ref.text}: {unknown('scikit-learn set', ref.body, LOADERS)}")
-    extra = set(ref.params) - {"positive"}
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: positive")
+    refuse_unknown(ref, {"positive"})
     bunch = LOADERS[ref.body][0]()
     names = np.array([str(n) for n in bunch.target_names], dtype=object)
     raw = names[bunch.target]

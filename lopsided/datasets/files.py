@@ -16,15 +16,14 @@ from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
 from .keelformat import parse_keel
 from .labels import encode
+from .params import refuse_unknown
 
 ALLOWED = {"label", "group", "positive", "drop", "nominal"}
 
 
 def load(ref):
     path = Path(ref.body)
-    extra = set(ref.params) - ALLOWED
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    refuse_unknown(ref, ALLOWED)
     if not path.is_file():
         raise DatasetError(f"{path}: no such file")
     label = ref.params.get("label")

@@ -14,6 +14,7 @@ import pandas as pd
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
 from .labels import encode
+from .params import refuse_unknown
 
 ALLOWED = {"labels", "label", "group", "positive"}
 
@@ -33,9 +34,7 @@ def read_spectrum(path):
 
 def load(ref):
     folder = Path(ref.body)
-    extra = set(ref.params) - ALLOWED
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    refuse_unknown(ref, ALLOWED)
     if not folder.is_dir():
         raise DatasetError(f"{folder}: no such folder of JCAMP-DX files")
     for needed in ("labels", "label"):

@@ -23,6 +23,7 @@ from ..errors import DatasetError, did_you_mean
 from .cache import cache_dir, manifest
 from .keelformat import parse_keel
 from .labels import encode
+from .params import refuse_unknown
 
 ALLOWED = {"duplicates", "constant"}
 
@@ -127,9 +128,7 @@ def duplicate_groups(X, y):
 
 
 def load(ref):
-    extra = set(ref.params) - ALLOWED
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    refuse_unknown(ref, ALLOWED)
     duplicates, constant = ref.params.get("duplicates", "group"), ref.params.get("constant", "drop")
     if duplicates not in ("group", "drop", "keep") or constant not in ("drop", "keep"):
         raise DatasetError(f"{ref.text}: duplicates must be group, drop or keep; constant must be drop or keep")

@@ -10,6 +10,7 @@ import numpy as np
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
 from .labels import encode
+from .params import refuse_unknown
 
 SETS = {"coffee": "60 ATR-FTIR spectra of coffee, 3 origins (chemotools)"}
 ALLOWED = {"positive", "keep", "seed"}
@@ -18,9 +19,7 @@ ALLOWED = {"positive", "keep", "seed"}
 def load(ref):
     if ref.body not in SETS:
         raise DatasetError(f"{ref.text}: {unknown('measured set', ref.body, SETS)}")
-    extra = set(ref.params) - ALLOWED
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    refuse_unknown(ref, ALLOWED)
     from chemotools.datasets import load_coffee
     spectra, labels = load_coffee()
     X = spectra.to_numpy(dtype=np.float64)

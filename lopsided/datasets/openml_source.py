@@ -15,6 +15,7 @@ from ..dataset import Dataset, Provenance
 from ..errors import DatasetError
 from .cache import cache_dir
 from .labels import encode
+from .params import refuse_unknown
 
 ALLOWED = {"target", "positive"}
 CITATION = "Vanschoren, van Rijn, Bischl & Torgo (2014), OpenML: networked science in machine learning, SIGKDD Explor. 15(2):49"
@@ -43,9 +44,7 @@ def fetch(dataset_id):
 
 
 def load(ref):
-    extra = set(ref.params) - ALLOWED
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; allowed: {', '.join(sorted(ALLOWED))}")
+    refuse_unknown(ref, ALLOWED)
     try:
         dataset_id = int(ref.body)
     except ValueError:

@@ -23,6 +23,7 @@ import numpy as np
 
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
+from .params import refuse_unknown
 
 
 @dataclass(frozen=True)
@@ -238,10 +239,7 @@ def load(ref):
     if ref.body not in PRESETS:
         raise DatasetError(f"{ref.text}: {unknown('spectra preset', ref.body, PRESETS)}")
     make, allowed, summary = PRESETS[ref.body]
-    extra = set(ref.params) - allowed - COMMON
-    if extra:
-        raise DatasetError(f"{ref.text}: unknown parameter {sorted(extra)[0]!r}; "
-                           f"allowed: {', '.join(sorted(allowed | COMMON))}")
+    refuse_unknown(ref, allowed | COMMON)
     X, y, classes, groups, group_word = make(ref.params)
     axis = wavenumbers(ref.params.get("region", "full"), ref.params.get("step", 4))
     positive = ref.params.get("positive")

@@ -19,7 +19,8 @@ def with_titles(cells, titles):
     """Replace canonical method specs by the suite's labels."""
     out = cells.copy()
     for column in ("resampler", "learner"):
-        out[column] = out[column].map(lambda v: titles.get(column, {}).get(v, v))
+        names = titles.get(column, {})
+        out[column] = out[column].map(lambda v, names=names: names.get(v, v))
     return out
 
 
