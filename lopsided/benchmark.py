@@ -1,9 +1,12 @@
 """The main job, end to end: suite file -> datasets -> plan -> store -> leaderboard folder."""
+import hashlib
 import platform
 import time
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
+
+import numpy as np
 
 from . import __version__
 from . import resamplers as resampler_registry
@@ -47,7 +50,17 @@ def extra_resamplers(texts):
 
 
 def load_all(suite):
-    return {reference: load_dataset(reference) for reference in suite.datasets}
+    """Every dataset of the suite; twin sets (identical samples under two names) are refused, since
+    rank-based tests count them as two independent datasets."""
+    datasets = {reference: load_dataset(reference) for reference in suite.datasets}
+    seen = {}
+    for reference, data in datasets.items():
+        digest = hashlib.sha256(np.ascontiguousarray(np.nan_to_num(data.X, nan=np.inf)).tobytes()).hexdigest()
+        if digest in seen:
+            raise SuiteError(suite.source, "datasets", f"{seen[digest]} and {reference} hold the same samples "
+                             "(twin sets); keep one of them")
+        seen[digest] = reference
+    return datasets
 
 
 def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_failed=False, progress=True,
@@ -97,7 +110,8 @@ def _summary(suite, datasets, full, cells, counts, started, seconds, jobs):
                   "computed": counts["computed"], "failed_now": counts["failed"],
                   "skipped_points": counts["skipped_points"]},
         "skipped": skipped_summary(full.skipped),
-        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum} for ref, data in datasets.items()],
+        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum, "note": data.provenance.note}
+                     for ref, data in datasets.items()],
     }
 
 

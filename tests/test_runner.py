@@ -163,3 +163,18 @@ def test_store_rows_carry_coordinates_timings_and_versions(write_suite, tmp_path
     for column in ("key", "dataset", "ratio", "size", "repeat", "fold", "resampler", "learner", "status",
                    "fit_seconds", "predict_seconds", "resample_seconds", "code_version", "seed"):
         assert column in row.index and pd.notna(row[column]), column
+
+
+def test_twin_datasets_are_refused(write_suite, tmp_path):
+    from lopsided.errors import SuiteError
+    rng = np.random.default_rng(0)
+    table = pd.DataFrame({"a": rng.normal(size=20), "label": ["x"] * 15 + ["y"] * 5})
+    table.to_csv(tmp_path / "one.csv", index=False)
+    table.to_csv(tmp_path / "two.csv", index=False)
+    text = f"""
+    name = "twins"
+    datasets = ["file:{tmp_path / 'one.csv'}?label=label", "file:{tmp_path / 'two.csv'}?label=label"]
+    learners = ["logistic-regression"]
+    """
+    with pytest.raises(SuiteError, match="hold the same samples"):
+        run_suite(write_suite(text=text, name="twins.toml"), out=tmp_path / "o", progress=False)

@@ -132,3 +132,10 @@ def test_als_baseline_removes_a_smooth_baseline():
 
 def test_biofilm_bands_are_protein_bands():
     assert [b.centre for b in BIOFILM_BANDS] == [1650, 1545]
+
+
+def test_polymer_class_shares_can_be_given():
+    data = load_dataset("spectra:polymers?particles=200&shares=50,20,10,10,5,5&region=fingerprint&step=16")
+    assert (data.counts / 2).tolist() == [100, 40, 20, 20, 10, 10]
+    with pytest.raises(Exception, match="shares needs 6 positive numbers"):
+        load_dataset("spectra:polymers?shares=1,2")

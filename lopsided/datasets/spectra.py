@@ -194,7 +194,12 @@ def polymers(params):
         raise DatasetError(f"spectra:polymers: ratio={ratio} must be at least 1 (most over least abundant)")
     axis = wavenumbers(params.get("region", "full"), params.get("step", 4))
     k = len(POLYMER_ABUNDANCE_ORDER)
-    shares = ratio ** (-np.arange(k) / (k - 1))
+    shares = ratio ** (-np.arange(k) / (k - 1))          # geometric long tail: most / least abundant = ratio
+    if "shares" in params:
+        shares = np.array([float(v) for v in str(params["shares"]).split(",")])
+        if len(shares) != k or (shares <= 0).any():
+            raise DatasetError(f"spectra:polymers: shares needs {k} positive numbers, one per polymer in the order "
+                               f"{', '.join(POLYMER_ABUNDANCE_ORDER)}")
     particle_class = np.repeat(np.arange(k), _groups_per_class(particles, shares))
     group_of = np.repeat(np.arange(particles), per_particle)
     pure = np.zeros((len(group_of), len(axis)))
@@ -230,7 +235,7 @@ def _admix(pure, particle_class, group_of, purity, rng):
 PRESETS = {
     "serum": (serum, {"ratio", "donors", "replicates", "effect"},
               "dried serum films, binary screening, rare positive donors (3 replicates each)"),
-    "polymers": (polymers, {"ratio", "particles", "spectra", "weathering", "purity", "positive"},
+    "polymers": (polymers, {"ratio", "shares", "particles", "spectra", "weathering", "purity", "positive"},
                  "micro-plastic particles, 6 polymers, long-tailed abundance"),
 }
 

@@ -94,10 +94,10 @@ SWEEP_METRICS = ("sensitivity", "specificity")   # recall of the minority class 
 
 
 def _sweeps(suite, scores, figures_dir):
-    """Headline metric, then minority and majority recall, against ratio and against size."""
+    """Every suite metric, then minority and majority recall, against ratio and against size."""
     paths = []
     order = [s["label"] for s in suite["resamplers"]]
-    metrics = list(dict.fromkeys([suite["metrics"][0], *SWEEP_METRICS]))
+    metrics = list(dict.fromkeys([*suite["metrics"], *SWEEP_METRICS]))
     for axis, fixed_values in (("ratio", suite["protocol"]["sizes"]), ("size", suite["protocol"]["ratios"])):
         for fixed in fixed_values:
             label = point_label(fixed)
