@@ -154,7 +154,10 @@ def test_openml_adapter_runs_offline_from_a_prefilled_cache(tmp_path, monkeypatc
 
 def test_openml_fails_fast_and_clearly_offline(tmp_path, monkeypatch):
     import time
+
+    import openml
     monkeypatch.setenv("OPENML_CACHE_DIR", str(tmp_path))
+    monkeypatch.setattr(openml.config, "server", "https://openml.invalid/api/v1/xml")   # offline even with a network
     started = time.perf_counter()
     with pytest.raises(DatasetError, match="openml:31: cannot get it from OpenML or the cache"):
         load_dataset("openml:31?target=class")

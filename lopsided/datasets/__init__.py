@@ -31,7 +31,9 @@ def load_dataset(reference):
 
 def available():
     """Rows of (reference example, description) for `lopsided list datasets`."""
-    rows = [(f"sklearn:{name}?positive=CLASS", text) for name, (_, text) in bundled.LOADERS.items()]
+    rows = [(f"sklearn:{name}?positive=CLASS", f"{text} (smoke tests only)") for name, (_, text) in bundled.LOADERS.items()]
+    rows.append(("keel:NAME", ADAPTERS["keel"][1] + "; `lopsided datasets list --collection keel`"))
+    rows.append(("openml:ID", ADAPTERS["openml"][1]))
     rows += [(f"spectra:{name}", text) for name, (_, _, text) in spectra.PRESETS.items()]
     rows.append(("measured:coffee?positive=Vietnam&keep=5", measured.SETS["coffee"] + "; imbalance induced"))
     rows.append(("file:PATH.csv?label=COLUMN", ADAPTERS["file"][1]))
