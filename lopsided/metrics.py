@@ -5,7 +5,7 @@ geometric mean of per-class recalls (Kubat & Matwin 1997); MCC (Matthews 1975, m
 form Gorodkin 2004); F1 of the minority class; average precision = sum_n (R_n - R_{n-1}) P_n
 (the step-wise area under the precision-recall curve); ROC AUC (binary; macro one-vs-rest
 for more classes). Sensitivity / specificity: recall of the minority class / recall of
-everything else taken together.
+everything else taken together. All are higher-is-better.
 """
 import numpy as np
 from sklearn.metrics import average_precision_score, confusion_matrix, f1_score, matthews_corrcoef, roc_auc_score
@@ -20,7 +20,6 @@ METRICS = {
     "sensitivity": "recall of the minority class",
     "specificity": "recall of all other classes taken together",
 }
-LOWER_IS_BETTER = set()   # every metric above is higher-is-better
 
 
 def class_scores(model, X, n_classes):

@@ -55,10 +55,6 @@ class MethodSpec:
         """What tables and plots show."""
         return self.label or self.canonical
 
-    @property
-    def is_import_path(self):
-        return ":" in self.name
-
     def __eq__(self, other):
         return isinstance(other, MethodSpec) and self.canonical == other.canonical
 
