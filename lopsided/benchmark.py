@@ -1,12 +1,9 @@
 """The main job, end to end: suite file -> datasets -> plan -> store -> leaderboard folder."""
-import hashlib
 import platform
 import time
 from dataclasses import dataclass
 from importlib import metadata
 from pathlib import Path
-
-import numpy as np
 
 from . import __version__
 from . import resamplers as resampler_registry
@@ -50,16 +47,16 @@ def extra_resamplers(texts):
 
 
 def load_all(suite):
-    """Every dataset of the suite; twin sets (identical samples under two names) are refused, since
-    rank-based tests count them as two independent datasets."""
+    """Every dataset of the suite; twin sets (the same samples and labels under two names, such as
+    KEEL's new_thyroid1 and new_thyroid2) are refused, since rank-based tests would count one task twice.
+    Different tasks cut from the same samples (glass1, glass6) are allowed: curated suites limit them per family."""
     datasets = {reference: load_dataset(reference) for reference in suite.datasets}
     seen = {}
     for reference, data in datasets.items():
-        digest = hashlib.sha256(np.ascontiguousarray(np.nan_to_num(data.X, nan=np.inf)).tobytes()).hexdigest()
-        if digest in seen:
-            raise SuiteError(suite.source, "datasets", f"{seen[digest]} and {reference} hold the same samples "
-                             "(twin sets); keep one of them")
-        seen[digest] = reference
+        if data.checksum in seen:
+            raise SuiteError(suite.source, "datasets", f"{seen[data.checksum]} and {reference} hold the same "
+                             "samples and labels (twin sets); keep one of them")
+        seen[data.checksum] = reference
     return datasets
 
 
@@ -132,6 +129,9 @@ def rebuild_report(target, out=None, alpha=0.05, rope=0.01):
         counts = {"planned": len(full.keys), "reused": len(stored), "computed": 0, "failed": 0,
                   "skipped_points": len(full.skipped)}
         summary = _summary(suite, datasets, full, cells, counts, now(), 0.0, 0)
+        leaky_cells = db.cells(plan(suite, datasets, split="random").keys)
+        if len(leaky_cells):                  # a --compare-split-leakage run stored these
+            summary["split_leakage"] = leakage_rows(cells, leaky_cells, suite)
         skipped = full.skipped
     else:
         db = Store(target, create=False)

@@ -176,5 +176,5 @@ def test_twin_datasets_are_refused(write_suite, tmp_path):
     datasets = ["file:{tmp_path / 'one.csv'}?label=label", "file:{tmp_path / 'two.csv'}?label=label"]
     learners = ["logistic-regression"]
     """
-    with pytest.raises(SuiteError, match="hold the same samples"):
+    with pytest.raises(SuiteError, match="hold the same samples and labels"):
         run_suite(write_suite(text=text, name="twins.toml"), out=tmp_path / "o", progress=False)
