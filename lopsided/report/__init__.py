@@ -163,9 +163,10 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
         }
         (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context), encoding="utf-8")
         (staging / "index.html").write_text(ENV.get_template("index.html.j2").render(**context), encoding="utf-8")
-        scores.to_csv(staging / "scores.csv", index=False)
+        # 8 significant digits in the CSV files (the store keeps full precision)
+        scores.to_csv(staging / "scores.csv", index=False, float_format="%.8g")
         titled.sort_values(["dataset", "ratio", "size", "repeat", "fold", "resampler", "learner"]).to_csv(
-            staging / "cells.csv", index=False)
+            staging / "cells.csv", index=False, float_format="%.8g")
         (staging / "stats.json").write_text(json.dumps(stats, indent=1), encoding="utf-8")
         (staging / "manifest.json").write_text(json.dumps(summary, indent=1, default=str), encoding="utf-8")
         _move_into_place(staging, out)
