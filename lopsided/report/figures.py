@@ -34,7 +34,7 @@ def sweep(scores, metric, axis, fixed, order, stem):
         ax.set_xticks(sorted(set(part["x"])))
         ax.set_xticklabels([f"{v:g}" for v in sorted(set(part["x"]))])
         ax.xaxis.set_minor_formatter(NullFormatter())
-        ax.set_xlabel("training imbalance ratio (majority:minority)" if axis == "ratio" else "training-set size")
+        ax.set_xlabel("training imbalance ratio (maj:min)" if axis == "ratio" else "training-set size")
         ax.grid(alpha=0.3, lw=0.6)
         for side in ("top", "right"):
             ax.spines[side].set_visible(False)
