@@ -6,6 +6,7 @@ one, so a failure never leaves a half-written file behind.
 """
 import json
 import os
+import re
 import shutil
 import tempfile
 from pathlib import Path
@@ -39,7 +40,8 @@ def _canonical(spec):
 
 
 def _slug(*parts):
-    return "-".join(str(p).replace(" ", "").replace("/", "_").replace("+", "") for p in parts)
+    """A file-name-safe stem: letters, digits, dot, dash, underscore; parts joined by a dash."""
+    return "-".join(re.sub(r"[^A-Za-z0-9._-]+", "_", str(p)).strip("_") for p in parts)
 
 
 def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
