@@ -58,7 +58,7 @@ def draw(result, stem, title=None):
     fig.text(0.5, 1 - 0.42 / height, test, ha="center", va="top", fontsize=FONT - 0.5, color=MUTED)
     paths = (f"{stem}.svg", f"{stem}.png")
     fig.savefig(paths[0])
-    fig.savefig(paths[1], dpi=160)
+    fig.savefig(paths[1], dpi=120)
     plt.close(fig)
     return paths
 

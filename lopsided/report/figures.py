@@ -44,7 +44,7 @@ def sweep(scores, metric, axis, fixed, order, stem):
                  fontsize=10, y=1.02)
     paths = (f"{stem}.svg", f"{stem}.png")
     fig.savefig(paths[0], bbox_inches="tight")
-    fig.savefig(paths[1], dpi=140, bbox_inches="tight")
+    fig.savefig(paths[1], dpi=110, bbox_inches="tight")
     plt.close(fig)
     return paths
 
