@@ -11,6 +11,7 @@ import json
 import os
 import sys
 import time
+import threading
 import traceback
 import warnings
 from concurrent.futures import ProcessPoolExecutor, as_completed
@@ -199,9 +200,8 @@ def execute(units, datasets, preprocessing_specs, jobs, on_done):
         for unit in units:
             on_done(unit, execute_unit(unit, datasets[unit.coords["dataset"]], preprocessing_specs))
         return
-    method = "forkserver" if sys.platform.startswith("linux") else "spawn"
-    context = get_context(method)
-    if method == "forkserver":
+    context = get_context(_start_method())
+    if context.get_start_method() == "forkserver":
         context.set_forkserver_preload(["lopsided.runner"])
     needed = {u.coords["dataset"] for u in units}
     with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
@@ -209,6 +209,14 @@ def execute(units, datasets, preprocessing_specs, jobs, on_done):
         futures = {pool.submit(_work, unit): unit for unit in units}
         for future in as_completed(futures):
             on_done(futures[future], future.result())
+
+
+def _start_method():
+    """'fork' on Linux while this process runs no other Python thread (workers start in
+    milliseconds, datasets are inherited, not pickled); else 'forkserver' (Linux) or 'spawn'."""
+    if not sys.platform.startswith("linux"):
+        return "spawn"
+    return "fork" if threading.active_count() == 1 else "forkserver"
 
 
 def pending(full_plan, stored):
