@@ -1,5 +1,6 @@
 """The `lopsided` command. Every LopsidedError is caught here once: message on stderr, exit 2."""
 import argparse
+import json
 import sys
 import traceback
 
@@ -98,7 +99,6 @@ def _run(args):
 
 
 def _print_top(out, rows=8):
-    import json
     stats = json.loads((out / "stats.json").read_text())
     if not stats:
         print("no comparison could be made (see leaderboard.md)")

@@ -1,8 +1,18 @@
 """The Dataset object every adapter returns, and its derived meta-features."""
 import hashlib
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
+
+
+def duplicate_groups(X, y):
+    """(group id per row, number of duplicate rows): identical rows (features and label, NaN equal
+    to NaN) share one id, every other row has its own."""
+    rows = np.ascontiguousarray(np.c_[np.nan_to_num(X, nan=np.inf), y], dtype=np.float64)
+    _, first, inverse = np.unique(rows.view(np.dtype((np.void, rows.dtype.itemsize * rows.shape[1]))),
+                                  return_index=True, return_inverse=True)
+    return inverse.ravel(), len(y) - len(first)
 
 
 @dataclass(frozen=True)
@@ -59,9 +69,9 @@ class Dataset:
         counts = self.counts
         return float(counts.max() / counts.min())
 
-    @property
+    @cached_property
     def checksum(self):
-        """sha256 of the numbers themselves: X, y, groups (what a result depends on)."""
+        """sha256 of the numbers themselves: X, y, groups (what a result depends on); computed once."""
         digest = hashlib.sha256()
         digest.update(np.ascontiguousarray(self.X, dtype=np.float64).tobytes())
         digest.update(np.ascontiguousarray(self.y, dtype=np.int64).tobytes())
@@ -69,11 +79,10 @@ class Dataset:
             digest.update(np.asarray(self.groups).astype(str).astype("U").tobytes())
         return digest.hexdigest()
 
-    @property
+    @cached_property
     def duplicate_rows(self):
         """Rows identical (features and label) to an earlier row."""
-        rows = np.c_[np.nan_to_num(self.X, nan=np.inf), self.y]
-        return int(len(rows) - len(np.unique(rows, axis=0)))
+        return duplicate_groups(self.X, self.y)[1]
 
     def meta(self):
         """Derived meta-features, as one flat dict (a row of `lopsided datasets list`)."""

@@ -62,17 +62,18 @@ class Store:
     def close(self):
         self.db.close()
 
-    def known_keys(self, keys, include_failed=True):
-        """The subset of ``keys`` already stored (failed cells too, unless asked not to)."""
-        found = set()
+    def _select(self, columns, keys, where=""):
+        """Rows of ``columns`` for the given keys, queried in chunks (SQLite limits bound parameters)."""
         keys = list(keys)
-        status = "" if include_failed else " AND status = 'ok'"
         for start in range(0, len(keys), 500):
             chunk = keys[start:start + 500]
             marks = ",".join("?" * len(chunk))
-            rows = self.db.execute(f"SELECT key FROM cells WHERE key IN ({marks}){status}", chunk)
-            found.update(row[0] for row in rows)
-        return found
+            yield from self.db.execute(f"SELECT {columns} FROM cells WHERE key IN ({marks}){where}", chunk)
+
+    def known_keys(self, keys, include_failed=True):
+        """The subset of ``keys`` already stored (failed cells too, unless asked not to)."""
+        status = "" if include_failed else " AND status = 'ok'"
+        return {row[0] for row in self._select("key", keys, status)}
 
     def write_unit(self, rows):
         """Insert (or replace) one work unit's cells in one transaction."""
@@ -106,9 +107,10 @@ class Store:
 
     def cells(self, keys=None):
         """Stored cells as a DataFrame, metrics expanded into columns; only ``keys`` when given."""
-        table = pd.read_sql_query("SELECT * FROM cells", self.db)
-        if keys is not None:
-            table = table[table["key"].isin(set(keys))]
+        if keys is None:
+            table = pd.read_sql_query("SELECT * FROM cells", self.db)
+        else:
+            table = pd.DataFrame(list(self._select("*", keys)), columns=NAMES)
         metrics = pd.DataFrame([json.loads(m) if isinstance(m, str) else {} for m in table["metrics"]],
                                index=table.index)
         return pd.concat([table.drop(columns="metrics"), metrics], axis=1)

@@ -70,3 +70,8 @@ def test_spectra_unknown_parameter_and_preset():
         load_dataset("spectra:serum?donor=3")
     with pytest.raises(DatasetError, match="did you mean 'polymers'"):
         load_dataset("spectra:polymer")
+
+
+def test_a_parameter_value_of_the_wrong_kind_is_a_clear_error():
+    with pytest.raises(DatasetError, match=r"spectra:serum\?donors=abc: a parameter has a value of the wrong kind"):
+        load_dataset("spectra:serum?donors=abc")

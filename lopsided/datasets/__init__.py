@@ -26,7 +26,10 @@ def load_dataset(reference):
     ref = parse_reference(reference)
     if ref.scheme not in ADAPTERS:
         raise DatasetError(f"{reference}: {unknown('dataset scheme', ref.scheme, ADAPTERS)}")
-    return ADAPTERS[ref.scheme][0](ref)
+    try:
+        return ADAPTERS[ref.scheme][0](ref)
+    except (ValueError, TypeError) as exc:     # e.g. donors=abc: a parameter value of the wrong kind
+        raise DatasetError(f"{reference}: a parameter has a value of the wrong kind ({exc})") from None
 
 
 def available():

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..dataset import Dataset, Provenance
+from ..dataset import Dataset, Provenance, duplicate_groups
 from ..errors import DatasetError, did_you_mean
 from .cache import cache_dir, manifest
 from .keelformat import parse_keel
@@ -117,14 +117,6 @@ def family_of(name):
     families = manifest("keel")["collection"]["families"]
     matches = [f for f in families if name.lower().startswith(f.lower())]
     return max(matches, key=len) if matches else name
-
-
-def duplicate_groups(X, y):
-    """Group ids: identical rows (features and label) share one id, every other row its own."""
-    rows = np.ascontiguousarray(np.c_[np.nan_to_num(X, nan=np.inf), y])
-    _, first, inverse = np.unique(rows.view(np.dtype((np.void, rows.dtype.itemsize * rows.shape[1]))),
-                                  return_index=True, return_inverse=True)
-    return inverse.ravel(), len(y) - len(first)
 
 
 def load(ref):
