@@ -10,12 +10,14 @@ from . import resamplers as resampler_registry
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError
 from .report import leakage_rows, skipped_summary, write_report
+from .errors import unknown
 from .runner import plan, run_plan
-from .specs import parse_method
+from .specs import MethodSpec, parse_method
 from .store import Store, now
-from .suite import load_suite, suite_from_dict
+from .suite import load_suite, spec_dict, suite_from_dict
 
-PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2")
+PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2", "chemotools", "openml",
+            "threadpoolctl", "tqdm", "pyarrow", "jcamp")
 
 
 @dataclass
@@ -29,7 +31,10 @@ class RunResult:
 def versions():
     found = {"python": platform.python_version(), "lopsided": __version__}
     for name in PACKAGES:
-        found[name] = metadata.version(name)
+        try:
+            found[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            found[name] = None
     return found
 
 
@@ -46,6 +51,40 @@ def extra_resamplers(texts):
     return specs
 
 
+def with_added_methods(suite, db, add=(), drop=(), command=""):
+    """The suite file's resamplers plus every one the suite gained in ``db`` and keeps.
+
+    ``add`` (--add-resampler texts) are recorded with ``command``; ``drop`` (labels) are left out of
+    leaderboards from now on, their cells kept. Everything is checked before the store changes.
+    Returns (suite, origins): origins lists every resampler and learner with where it came from.
+    """
+    own = {s.title for s in suite.resamplers}
+    stored = {entry[0]["label"]: entry for entry in db.added_methods(suite.name, "resamplers")}
+    for label in drop:
+        if label in own:
+            raise SuiteError("--drop-resampler", label, f"is listed in the suite file {suite.source}; remove it there")
+        if label not in stored:
+            raise SuiteError("--drop-resampler", label, unknown("added resampler", label, stored))
+    new = extra_resamplers(add)
+    for spec, text in zip(new, add):
+        if spec.title in own or spec in suite.resamplers:
+            raise SuiteError("--add-resampler", text, f"{spec.title!r} is already listed in the suite file {suite.source}")
+        if spec.title in drop:
+            raise SuiteError("--add-resampler", text, "is also named by --drop-resampler")
+    for spec in new:
+        db.add_method(suite.name, "resamplers", spec_dict(spec), command)
+    for label in drop:
+        db.drop_method(suite.name, "resamplers", label)
+    kept = db.added_methods(suite.name, "resamplers")
+    extended = suite.with_resamplers([MethodSpec(d["name"], d["params"], d["label"]) for d, _, _ in kept])
+    origins = [{"kind": "learner", "label": s.title, "spec": s.canonical, "origin": "suite file"} for s in suite.learners]
+    origins += [{"kind": "resampler", "label": s.title, "spec": s.canonical, "origin": "suite file"}
+                for s in suite.resamplers]
+    origins += [{"kind": "resampler", "label": d["label"], "spec": MethodSpec(d["name"], d["params"]).canonical,
+                 "origin": "added", "command": command_text, "added_at": added_at} for d, command_text, added_at in kept]
+    return extended, origins
+
+
 def load_all(suite):
     """Every dataset of the suite; twin sets (the same samples and labels under two names, such as
     KEEL's new_thyroid1 and new_thyroid2) are refused, since rank-based tests would count one task twice.
@@ -60,25 +99,28 @@ def load_all(suite):
     return datasets
 
 
-def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_failed=False, progress=True,
-              alpha=0.05, rope=0.01, compare_split_leakage=False):
+def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamplers=(), retry_failed=False,
+              progress=True, alpha=0.05, rope=0.01, compare_split_leakage=False, command=None):
     """Run a suite file (or Suite) and write its leaderboard; stored cells are reused.
 
-    ``compare_split_leakage`` also runs every grouped dataset with its groups ignored and reports
-    how much the leaky random split inflates the headline metric.
+    Resamplers added with ``add_resamplers`` are recorded in the store and stay in every later run
+    and report of the suite until dropped with ``drop_resamplers``. ``compare_split_leakage`` also
+    runs every grouped dataset with its groups ignored and reports how much the leaky random split
+    inflates the headline metric. ``command`` is recorded in the manifest (default: the call itself).
     """
-    suite = load_suite(path) if not hasattr(path, "protocol") else path
-    suite = suite.with_resamplers(extra_resamplers(add_resamplers))
+    base = load_suite(path) if not hasattr(path, "protocol") else path
     if not isinstance(jobs, int) or jobs < 1:
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
-    out = Path(out or Path("results") / suite.name)
-    store_path = Path(store or suite.store or out / "store.sqlite")
+    command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
+    out = Path(out or Path("results") / base.name)
+    store_path = Path(store or base.store or out / "store.sqlite")
     started, clock = now(), time.perf_counter()
-    datasets = load_all(suite)
-    full = plan(suite, datasets)
-    leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
     db = Store(store_path)
     try:
+        suite, origins = with_added_methods(base, db, add_resamplers, drop_resamplers, command)
+        datasets = load_all(suite)
+        full = plan(suite, datasets)
+        leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
         run_id = db.begin_run(suite, full.keys)
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
         cells = db.cells(full.keys)
@@ -86,62 +128,105 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), retry_faile
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
             for key in ("reused", "computed", "failed"):     # the leakage run counts as work done, not planned
                 counts[key] += extra[key]
-        summary = _summary(suite, datasets, full, cells, counts, started, time.perf_counter() - clock, jobs)
+        summary = _summary(suite, datasets, full, cells, counts, origins)
+        summary.update(started_at=started, finished_at=now(), seconds=round(time.perf_counter() - clock, 2),
+                       jobs=jobs, command=command)
         if leaky is not None:
             summary["split_leakage"] = leakage_rows(cells, db.cells(leaky.keys), suite)
         db.finish_run(run_id, {**summary, "skipped": full.skipped})
     finally:
         db.close()
+    report_clock = time.perf_counter()
     write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
+    summary["report_seconds"] = round(time.perf_counter() - report_clock, 2)
     return RunResult(out, store_path, summary, cells)
 
 
-def _summary(suite, datasets, full, cells, counts, started, seconds, jobs):
+def _python_call(name, path, add, drop):
+    """How a notebook call is recorded when no command line is given."""
+    options = "".join(f", add_resamplers={list(add)!r}" if add else "") + (f", drop_resamplers={list(drop)!r}" if drop else "")
+    return f"lopsided.{name}({str(path)!r}{options})"
+
+
+def _summary(suite, datasets, full, cells, counts, origins):
+    """The manifest: what ran, on what, with which versions; the caller adds times and the command."""
     ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
     return {
         "suite": suite.name, "suite_fingerprint": suite.fingerprint, "suite_file": suite.source,
-        "seed": suite.seed, "started_at": started, "finished_at": now(), "seconds": round(seconds, 2),
-        "jobs": jobs, "versions": versions(),
+        "seed": suite.seed, "versions": versions(), "methods": origins,
         "cells": {"planned": counts["planned"], "ok": ok, "failed": len(cells) - ok,
                   "missing": counts["planned"] - len(cells), "reused": counts["reused"],
                   "computed": counts["computed"], "failed_now": counts["failed"],
                   "skipped_points": counts["skipped_points"]},
         "skipped": skipped_summary(full.skipped),
-        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum, "note": data.provenance.note}
+        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum, "note": data.provenance.note,
+                      "source": data.provenance.source, "citation": data.provenance.citation,
+                      "licence": data.provenance.licence}
                      for ref, data in datasets.items()],
     }
 
 
-def rebuild_report(target, out=None, alpha=0.05, rope=0.01):
-    """Rebuild a leaderboard folder from stored cells: ``target`` is a suite file or a store."""
+RUN_FIELDS = ("started_at", "finished_at", "seconds", "jobs", "command")
+
+
+def rebuild_report(target, out=None, alpha=0.05, rope=0.01, drop_resamplers=(), command=None):
+    """Rebuild a leaderboard folder from stored cells: ``target`` is a suite file or a store.
+
+    Nothing is refitted. Resamplers the suite gained stay in; ``drop_resamplers`` leaves added ones out
+    from now on. The manifest keeps the times, jobs and command of the run that computed the cells
+    and records the rebuild separately. From a store alone, the newest finished run is rebuilt.
+    """
     target = Path(target)
-    if target.suffix == ".toml":
-        suite = load_suite(target)
-        out = Path(out or Path("results") / suite.name)
-        store_path = Path(suite.store or out / "store.sqlite")
-        if not store_path.is_file():
-            raise StoreError(f"{store_path}: no result store for suite {suite.name!r}; run it first")
+    command = command or f"lopsided.rebuild_report({str(target)!r})"
+    if target.suffix != ".toml":
+        return _rebuild_from_store(target, out, alpha, rope, drop_resamplers, command)
+    base = load_suite(target)
+    out = Path(out or Path("results") / base.name)
+    store_path = Path(base.store or out / "store.sqlite")
+    if not store_path.is_file():
+        raise StoreError(f"{store_path}: no result store for suite {base.name!r}; run it first")
+    db = Store(store_path, create=False)
+    try:
+        suite, origins = with_added_methods(base, db, (), drop_resamplers, command)
         datasets = load_all(suite)
         full = plan(suite, datasets)
-        db = Store(store_path, create=False)
         cells = db.cells(full.keys)
-        stored = db.known_keys(full.keys)
-        counts = {"planned": len(full.keys), "reused": len(stored), "computed": 0, "failed": 0,
+        counts = {"planned": len(full.keys), "reused": len(db.known_keys(full.keys)), "computed": 0, "failed": 0,
                   "skipped_points": len(full.skipped)}
-        summary = _summary(suite, datasets, full, cells, counts, now(), 0.0, 0)
+        summary = _summary(suite, datasets, full, cells, counts, origins)
+        try:
+            _, last, _ = db.latest_run(suite.name)
+            summary.update({k: last[k] for k in RUN_FIELDS if k in last})
+        except StoreError:
+            pass
+        summary["rebuilt"] = {"at": now(), "command": command}
         leaky_cells = db.cells(plan(suite, datasets, split="random").keys)
         if len(leaky_cells):                  # a --compare-split-leakage run stored these
             summary["split_leakage"] = leakage_rows(cells, leaky_cells, suite)
-        skipped = full.skipped
-    else:
-        db = Store(target, create=False)
+    finally:
+        db.close()
+    write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
+    return out
+
+
+def _rebuild_from_store(path, out, alpha, rope, drop, command):
+    """The newest finished run of a store, as it was planned, less any resampler dropped now."""
+    db = Store(path, create=False)
+    try:
         suite_dict, summary, keys = db.latest_run()
-        suite = suite_from_dict(_as_raw(suite_dict), source=str(target))
-        out = Path(out or Path("results") / suite.name)
+        suite = suite_from_dict(_as_raw(suite_dict), source=str(path))
+        added = {d["label"] for d, _, _ in db.added_methods(suite.name, "resamplers")}
+        own = suite.without_resamplers(added)
+        _, origins = with_added_methods(own, db, (), drop, command)
+        suite = suite.without_resamplers(drop)
         cells = db.cells(keys)
-        skipped = summary.pop("skipped", [])
-        summary["skipped"] = skipped_summary(skipped)
-    db.close()
+    finally:
+        db.close()
+    kept = {s.canonical for s in suite.resamplers}
+    cells = cells[cells["resampler"].isin(kept)]
+    out = Path(out or Path("results") / suite.name)
+    skipped = summary.pop("skipped", [])
+    summary.update(skipped=skipped_summary(skipped), methods=origins, rebuilt={"at": now(), "command": command})
     write_report(out, suite.as_dict(), cells, skipped, summary, alpha=alpha, rope=rope)
     return out
 

@@ -1,6 +1,7 @@
 """The `lopsided` command. Every LopsidedError is caught here once: message on stderr, exit 2."""
 import argparse
 import json
+import shlex
 import sys
 import traceback
 
@@ -23,7 +24,9 @@ def parser():
     run.add_argument("--out", help="leaderboard folder (default results/<suite name>)")
     run.add_argument("--store", help="result store (default <out>/store.sqlite)")
     run.add_argument("--add-resampler", action="append", default=[], metavar="SPEC",
-                     help="extra resampler: name or package.module:Name[?param=value]; repeatable")
+                     help="extra resampler: name or package.module:Name[?param=value]; repeatable; "
+                          "it stays in the suite's later runs and reports until dropped")
+    _drop_option(run)
     run.add_argument("--retry-failed", action="store_true", help="recompute cells stored as failed")
     run.add_argument("--compare-split-leakage", action="store_true",
                      help="also run grouped datasets with groups ignored and report the inflation")
@@ -33,6 +36,7 @@ def parser():
     report = sub.add_parser("report", help="rebuild a leaderboard folder from stored cells, no refitting")
     report.add_argument("source", help="suite file (TOML) or result store (.sqlite)")
     report.add_argument("--out", help="leaderboard folder (default results/<suite name>)")
+    _drop_option(report)
     _stats_options(report)
 
     rank = sub.add_parser("rank", help="rank your own score table: stats.json, CD plot, ranking.md")
@@ -64,6 +68,11 @@ def parser():
     return top
 
 
+def _drop_option(command):
+    command.add_argument("--drop-resampler", action="append", default=[], metavar="LABEL",
+                         help="leave out a resampler added earlier with --add-resampler (its cells are kept); repeatable")
+
+
 def _stats_options(command):
     command.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
     command.add_argument("--rope", type=float, default=0.01,
@@ -71,7 +80,9 @@ def _stats_options(command):
 
 
 def main(argv=None):
+    argv = sys.argv[1:] if argv is None else list(argv)
     args = parser().parse_args(argv)
+    args.command_line = shlex.join(["lopsided", *argv])
     try:
         return COMMANDS[args.command](args) or 0
     except LopsidedError as exc:
@@ -87,9 +98,9 @@ def main(argv=None):
 def _run(args):
     from .benchmark import run_suite
     result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
-                       add_resamplers=args.add_resampler, retry_failed=args.retry_failed,
-                       progress=not args.quiet, alpha=args.alpha, rope=args.rope,
-                       compare_split_leakage=args.compare_split_leakage)
+                       add_resamplers=args.add_resampler, drop_resamplers=args.drop_resampler,
+                       retry_failed=args.retry_failed, progress=not args.quiet, alpha=args.alpha, rope=args.rope,
+                       compare_split_leakage=args.compare_split_leakage, command=args.command_line)
     cells = result.summary["cells"]
     print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
           f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "
@@ -99,24 +110,25 @@ def _run(args):
 
 
 def _print_top(out, rows=8):
-    stats = json.loads((out / "stats.json").read_text())
-    if not stats:
+    comparisons = json.loads((out / "stats.json").read_text())["comparisons"]
+    if not comparisons:
         print("no comparison could be made (see leaderboard.md)")
         return
-    point, metrics = next(iter(stats.items()))
-    metric, views = next(iter(metrics.items()))
-    view = views.get("all combinations") or next(iter(views.values()))
-    ranks = list(view["average_ranks"].items())
-    table = pd.DataFrame(ranks[:rows], columns=["method", "average rank"])
+    view = next((c for c in comparisons if c["view"] == "all"), comparisons[0])
+    table = pd.DataFrame(list(view["average_ranks"].items())[:rows], columns=["method", "average rank"])
     table.index = range(1, len(table) + 1)
-    print(f"\n{metric} at {point}, {view['n_datasets']} datasets "
-          f"(Friedman p = {view['friedman']['p']:.3g}, Nemenyi CD = {view['nemenyi']['cd']:.2f}):")
+    decision = view["decision"]
+    verdict = (f"{decision['test']} = {decision['p']:.3g}" if decision["claims_allowed"]
+               else "too few datasets for a significance claim")
+    print(f"\n{view['metric']} at ratio={view['ratio']}, size={view['size']}, {view['n_datasets']} datasets "
+          f"({verdict}; Nemenyi CD = {view['nemenyi']['cd']:.2f}):")
     print(table.to_string(float_format=lambda v: f"{v:.2f}"), "\n")
 
 
 def _report(args):
     from .benchmark import rebuild_report
-    out = rebuild_report(args.source, out=args.out, alpha=args.alpha, rope=args.rope)
+    out = rebuild_report(args.source, out=args.out, alpha=args.alpha, rope=args.rope,
+                         drop_resamplers=args.drop_resampler, command=args.command_line)
     print(f"leaderboard rebuilt from stored cells: {out}/index.html")
 
 

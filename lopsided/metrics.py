@@ -6,9 +6,14 @@ form Gorodkin 2004); F1 of the minority class; average precision = sum_n (R_n - 
 (the step-wise area under the precision-recall curve); ROC AUC (binary; macro one-vs-rest
 for more classes). Sensitivity / specificity: recall of the minority class / recall of
 everything else taken together. All are higher-is-better.
+
+Computation: every count-based metric comes from one confusion matrix (one np.bincount), and
+both curve metrics of a score column from one sort of that column, with a threshold at each
+distinct score value (ties fall together), as scikit-learn's metric functions define them.
 """
 import numpy as np
-from sklearn.metrics import average_precision_score, confusion_matrix, f1_score, matthews_corrcoef, roc_auc_score
+
+from .errors import MethodError
 
 METRICS = {
     "balanced_accuracy": "mean of per-class recalls",
@@ -20,6 +25,8 @@ METRICS = {
     "sensitivity": "recall of the minority class",
     "specificity": "recall of all other classes taken together",
 }
+
+NAN = float("nan")
 
 
 def class_scores(model, X, n_classes):
@@ -37,42 +44,96 @@ def class_scores(model, X, n_classes):
     return out
 
 
-def per_class_recall(y_true, y_pred, n_classes):
-    matrix = confusion_matrix(y_true, y_pred, labels=np.arange(n_classes))
-    support = matrix.sum(axis=1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(support > 0, np.diag(matrix) / support, np.nan)
+def confusion(y_true, y_pred, n_classes):
+    """Counts with rows = true class, columns = predicted class, from one np.bincount."""
+    if y_pred.min() < 0 or y_pred.max() >= n_classes:
+        raise MethodError(f"predictions: labels outside the class indices 0..{n_classes - 1}; "
+                          f"got {sorted(set(y_pred[(y_pred < 0) | (y_pred >= n_classes)].tolist()))}")
+    counts = np.bincount(y_true * n_classes + y_pred, minlength=n_classes * n_classes)
+    return counts.reshape(n_classes, n_classes)
 
 
 def score_cell(y_true, y_pred, scores, minority, class_names):
     """Every metric for one test part, plus the recall of each class ('recall:NAME')."""
     n_classes = len(class_names)
-    recalls = per_class_recall(y_true, y_pred, n_classes)
-    present = recalls[~np.isnan(recalls)]
-    is_pos, pred_pos = y_true == minority, y_pred == minority
+    matrix = confusion(y_true, y_pred, n_classes)
+    support = matrix.sum(axis=1)
+    recalls = np.full(n_classes, np.nan)
+    np.divide(np.diag(matrix), support, out=recalls, where=support > 0)
+    present = recalls[support > 0]
+    hits, actual, predicted = matrix[minority, minority], support[minority], matrix[:, minority].sum()
+    negatives = len(y_true) - actual
+    minority_curve = _curve(y_true == minority, scores[:, minority])
     result = {
         "balanced_accuracy": float(present.mean()),
         "g_mean": float(np.prod(present) ** (1.0 / len(present))),
-        "mcc": float(matthews_corrcoef(y_true, y_pred)),
-        "f1_minority": float(f1_score(is_pos, pred_pos, zero_division=0.0)),
-        "average_precision": _safe(average_precision_score, is_pos, scores[:, minority]),
-        "roc_auc": _auc(y_true, scores, n_classes),
-        "sensitivity": float(pred_pos[is_pos].mean()) if is_pos.any() else float("nan"),
-        "specificity": float((~pred_pos[~is_pos]).mean()) if (~is_pos).any() else float("nan"),
+        "mcc": _mcc(matrix),
+        "f1_minority": float(2.0 * hits / (actual + predicted)) if actual + predicted else 0.0,
+        "average_precision": _average_precision(minority_curve),
+        "roc_auc": _roc_auc(y_true, scores, minority, minority_curve),
+        "sensitivity": float(recalls[minority]),
+        "specificity": float((negatives - predicted + hits) / negatives) if negatives else NAN,
     }
     result.update({f"recall:{name}": float(r) for name, r in zip(class_names, recalls)})
     return result
 
 
-def _auc(y_true, scores, n_classes):
+def _mcc(matrix):
+    """Gorodkin (2004) R_K, in scikit-learn's order of operations; 0 when either margin has one class only."""
+    true_sum = matrix.sum(axis=1, dtype=np.float64)
+    pred_sum = matrix.sum(axis=0, dtype=np.float64)
+    n = pred_sum.sum()
+    cov_true_pred = np.trace(matrix, dtype=np.float64) * n - true_sum @ pred_sum
+    cov_pred_pred = n ** 2 - pred_sum @ pred_sum
+    cov_true_true = n ** 2 - true_sum @ true_sum
+    product = cov_pred_pred * cov_true_true
+    return float(cov_true_pred / np.sqrt(product)) if product else 0.0
+
+
+def _roc_auc(y_true, scores, minority, minority_curve):
+    """Binary: class 1 against class 0 on the score difference; more classes: macro mean one-vs-rest."""
+    n_classes = scores.shape[1]
     if n_classes == 2:
-        return _safe(roc_auc_score, y_true == 1, scores[:, 1] - scores[:, 0])
-    per_class = [_safe(roc_auc_score, y_true == c, scores[:, c]) for c in range(n_classes)]
-    return float(np.nanmean(per_class)) if not np.all(np.isnan(per_class)) else float("nan")
+        return _roc_area(_curve(y_true == 1, scores[:, 1] - scores[:, 0]))
+    areas = [_roc_area(minority_curve if c == minority else _curve(y_true == c, scores[:, c]))
+             for c in range(n_classes)]
+    return NAN if np.all(np.isnan(areas)) else float(np.nanmean(areas))
 
 
-def _safe(metric, truth, score):
-    """NaN when the metric is undefined (one class in the test part, or no finite scores)."""
-    if truth.all() or not truth.any() or not np.isfinite(score).all():
-        return float("nan")
-    return float(metric(truth, score))
+def _curve(truth, score):
+    """Cumulative (true positives, false positives) at each distinct score, highest first, from one sort.
+
+    None when the curves are undefined: one class only in the test part, or a score that is not finite.
+    """
+    positives = np.count_nonzero(truth)
+    if positives == 0 or positives == len(truth) or not np.isfinite(score).all():
+        return None
+    order = np.argsort(score)[::-1]
+    ranked = score[order]
+    last = np.append(np.flatnonzero(ranked[1:] != ranked[:-1]), len(ranked) - 1)
+    true_pos = np.cumsum(truth[order])[last]
+    return true_pos, last + 1 - true_pos
+
+
+def _average_precision(curve):
+    """sum_n (R_n - R_{n-1}) P_n over the distinct thresholds (scikit-learn's average_precision_score)."""
+    if curve is None:
+        return NAN
+    true_pos, false_pos = curve
+    recall = true_pos / true_pos[-1]
+    precision = true_pos / (true_pos + false_pos)
+    return float(np.sum(np.diff(recall, prepend=0.0) * precision))
+
+
+def _roc_area(curve):
+    """Trapezoids between successive distinct thresholds, summed exactly in integers and divided once.
+
+    Equal to the Mann-Whitney U statistic with mid-ranks for ties over (positives x negatives)
+    (Hanley & McNeil 1982, Radiology 143:29-36).
+    """
+    if curve is None:
+        return NAN
+    true_pos, false_pos = curve
+    widths = np.diff(false_pos, prepend=0)
+    heights = true_pos + np.append(0, true_pos[:-1])
+    return float(int(widths @ heights) / (2 * int(true_pos[-1]) * int(false_pos[-1])))

@@ -6,7 +6,7 @@ import pandas as pd
 
 from .analysis import compare
 from .analysis.cdplot import draw
-from .analysis.words import claims
+from .analysis.words import caption, claims
 from .errors import DatasetError
 from .report import CAUTION, ENV
 
@@ -44,7 +44,6 @@ def read_scores(path):
         dataset = bad.index[bad[method]][0]
         raise DatasetError(f"{path}: score of {method!r} on {dataset!r} is not a number: {matrix.loc[dataset, method]!r}")
     return numeric
-    return matrix
 
 
 def rank(matrix, **options):
@@ -58,8 +57,9 @@ def rank_file(path, out, metric="score", **options):
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
     draw(result, str(out / "cd"))
-    (out / "stats.json").write_text(json.dumps(result.as_json(), indent=1), encoding="utf-8")
+    (out / "stats.json").write_text(json.dumps(result.as_json(), indent=1, allow_nan=False), encoding="utf-8")
     text = ENV.get_template("ranking.md.j2").render(result=result, claims=claims(result), caution=CAUTION,
-                                                     source=Path(path).name)
+                                                     source=Path(path).name,
+                                                     caption=caption(result, f"{metric}, {Path(path).name}"))
     (out / "ranking.md").write_text(text, encoding="utf-8")
     return out

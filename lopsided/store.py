@@ -58,6 +58,9 @@ class Store:
                             "fingerprint TEXT, suite_json TEXT, started_at TEXT, finished_at TEXT, "
                             "summary TEXT)")
             self.db.execute("CREATE TABLE IF NOT EXISTS run_cells (run_id INTEGER, key TEXT)")
+            self.db.execute("CREATE TABLE IF NOT EXISTS added_methods (suite TEXT, kind TEXT, spec TEXT, "
+                            "label TEXT, command TEXT, added_at TEXT, dropped_at TEXT, "
+                            "PRIMARY KEY (suite, kind, label))")
 
     def close(self):
         self.db.close()
@@ -96,12 +99,39 @@ class Store:
             self.db.execute("UPDATE runs SET finished_at = ?, summary = ? WHERE run_id = ?",
                             (now(), json.dumps(summary, default=str), run_id))
 
-    def latest_run(self):
-        """(suite dict, summary dict, planned keys) of the newest finished run."""
-        row = self.db.execute("SELECT run_id, suite_json, summary FROM runs WHERE finished_at IS NOT NULL "
-                              "ORDER BY run_id DESC LIMIT 1").fetchone()
+    def add_method(self, suite, kind, spec, command):
+        """Record that ``suite`` gained ``spec`` (a dict: name, params, label) by ``command``.
+
+        Adding a method that is already recorded keeps its first record; adding a dropped one again
+        brings it back.
+        """
+        with self.db:
+            self.db.execute("INSERT OR IGNORE INTO added_methods (suite, kind, spec, label, command, added_at) "
+                            "VALUES (?, ?, ?, ?, ?, ?)", (suite, kind, json.dumps(spec), spec["label"], command, now()))
+            self.db.execute("UPDATE added_methods SET dropped_at = NULL WHERE suite = ? AND kind = ? AND label = ?",
+                            (suite, kind, spec["label"]))
+
+    def drop_method(self, suite, kind, label):
+        """Leave an added method out of ``suite``'s leaderboards from now on (its cells stay). False if unknown."""
+        with self.db:
+            cursor = self.db.execute("UPDATE added_methods SET dropped_at = ? WHERE suite = ? AND kind = ? "
+                                     "AND label = ? AND dropped_at IS NULL", (now(), suite, kind, label))
+        return cursor.rowcount > 0
+
+    def added_methods(self, suite, kind):
+        """[(spec dict, command, added_at)] that ``suite`` gained and still has, oldest first."""
+        rows = self.db.execute("SELECT spec, command, added_at FROM added_methods WHERE suite = ? AND kind = ? "
+                               "AND dropped_at IS NULL ORDER BY added_at, rowid", (suite, kind))
+        return [(json.loads(spec), command, added_at) for spec, command, added_at in rows]
+
+    def latest_run(self, suite=None):
+        """(suite dict, summary dict, planned keys) of the newest finished run (of ``suite``, if named)."""
+        where, args = ("AND suite = ?", (suite,)) if suite else ("", ())
+        row = self.db.execute(f"SELECT run_id, suite_json, summary FROM runs WHERE finished_at IS NOT NULL {where} "
+                              "ORDER BY run_id DESC LIMIT 1", args).fetchone()
         if row is None:
-            raise StoreError(f"{self.path}: no finished run in this store")
+            raise StoreError(f"{self.path}: no finished run" + (f" of suite {suite!r}" if suite else "")
+                             + " in this store")
         keys = [k for (k,) in self.db.execute("SELECT key FROM run_cells WHERE run_id = ?", (row[0],))]
         return json.loads(row[1]), json.loads(row[2] or "{}"), keys
 

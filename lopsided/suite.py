@@ -17,7 +17,8 @@ from .plugins import accepted_params
 from .specs import MethodSpec, parse_method, parse_reference
 
 TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
-            "preprocessing", "protocol", "store"}
+            "preprocessing", "protocol", "store", "control"}
+NO_CONTROL = "none"
 PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority"}
 RATIO_WORDS = ("natural", "balanced")
 METHOD_KEYS = {"name", "params", "label"}
@@ -57,6 +58,14 @@ class Suite:
     description: str = ""
     source: str = "<suite>"
     store: str | None = None
+    control: str | None = ""     # Bonferroni-Dunn control: a resampler label; "" = the first; None = no test
+
+    @property
+    def control_label(self):
+        """The resampler every other is tested against within a learner, or None."""
+        if self.control is None:
+            return None
+        return self.control or self.resamplers[0].title
 
     @property
     def headline(self):
@@ -71,19 +80,24 @@ class Suite:
             merged.append(spec)
         return replace(self, resamplers=tuple(merged))
 
+    def without_resamplers(self, labels):
+        """The same suite without the resamplers titled ``labels``."""
+        return replace(self, resamplers=tuple(s for s in self.resamplers if s.title not in set(labels)))
+
     def as_dict(self):
         """Plain, JSON-ready content (what the fingerprint and the store record)."""
         return {
             "name": self.name, "seed": self.seed, "description": self.description,
             "datasets": list(self.datasets),
-            "resamplers": [_spec_dict(s) for s in self.resamplers],
-            "learners": [_spec_dict(s) for s in self.learners],
-            "preprocessing": [_spec_dict(s) for s in self.preprocessing],
+            "resamplers": [spec_dict(s) for s in self.resamplers],
+            "learners": [spec_dict(s) for s in self.learners],
+            "preprocessing": [spec_dict(s) for s in self.preprocessing],
             "metrics": list(self.metrics),
             "protocol": {"repeats": self.protocol.repeats, "folds": self.protocol.folds,
                          "holdout": self.protocol.holdout,
                          "ratios": list(self.protocol.ratios), "sizes": list(self.protocol.sizes),
                          "min_minority": self.protocol.min_minority},
+            "control": NO_CONTROL if self.control is None else self.control,
         }
 
     @property
@@ -92,7 +106,7 @@ class Suite:
         return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
-def _spec_dict(spec):
+def spec_dict(spec):
     return {"name": spec.name, "params": dict(spec.params), "label": spec.title}
 
 
@@ -126,19 +140,31 @@ def suite_from_dict(raw, source="<suite>"):
     store = raw.get("store")
     if store is not None and not isinstance(store, str):
         raise SuiteError(source, "store", f"{store!r} is not a file path")
+    resampler_specs = _methods(raw.get("resamplers", ["none"]), source, "resamplers", resamplers.resolve)
     return Suite(
         name=name.strip(),
         seed=seed,
         description=str(raw.get("description", "")),
         datasets=_datasets(raw.get("datasets"), source),
-        resamplers=_methods(raw.get("resamplers", ["none"]), source, "resamplers", resamplers.resolve),
+        resamplers=resampler_specs,
         learners=_methods(raw.get("learners"), source, "learners", learners.resolve),
         preprocessing=_methods(raw.get("preprocessing", []), source, "preprocessing", preprocessing.resolve, allow_empty=True),
         metrics=metrics,
         protocol=_protocol(raw.get("protocol", {}), source),
         source=source,
         store=store,
+        control=_control(raw.get("control", ""), resampler_specs, source),
     )
+
+
+def _control(value, specs, source):
+    """'' (default: the first resampler), "none" (no test against a control) or a resampler label."""
+    if value == NO_CONTROL or value is None:
+        return None
+    labels = [s.title for s in specs]
+    if not isinstance(value, str) or (value and value not in labels):
+        raise SuiteError(source, "control", unknown("resampler", str(value), [*labels, NO_CONTROL]))
+    return value
 
 
 def _no_unknown_keys(table, allowed, source, prefix):

@@ -144,7 +144,8 @@ def test_report_rebuilds_from_the_store_alone(write_suite, tmp_path):
     original = result.cells
     assert len(rebuilt) * 4 == len(original)
     stats = json.loads((tmp_path / "again" / "stats.json").read_text())
-    assert "ratio=natural, size=all" in stats
+    assert stats == json.loads((tmp_path / "o" / "stats.json").read_text())     # the same statistics, refitting nothing
+    assert {(c["ratio"], c["size"], c["view"]) for c in stats["comparisons"]} >= {("natural", "all", "all")}
 
 
 def test_infeasible_points_are_skipped_and_reported(write_suite, tmp_path):

@@ -117,7 +117,7 @@ def test_bayesian_signed_rank_fast_form_equals_the_double_sum():
     a, b = rng.normal(0.8, 0.05, 25), rng.normal(0.8, 0.05, 25) + 0.015
     posterior = SignedRank(25, samples=400, seed=1)
     got = posterior(a, b, 0.01)
-    assert [got.left, got.rope, got.right] == pytest.approx(list(brute_force_thetas(a, b, 0.01, posterior.weights)))
+    assert [got.a_better, got.equivalent, got.b_better] == pytest.approx(list(brute_force_thetas(a, b, 0.01, posterior.weights)))
 
 
 def test_bayesian_signed_rank_sanity():
@@ -125,10 +125,10 @@ def test_bayesian_signed_rank_sanity():
     base = rng.uniform(0.6, 0.9, 30)
     posterior = SignedRank(30, seed=0)
     same = posterior(base, base + rng.normal(0, 0.001, 30), 0.01)
-    assert same.rope > 0.99
+    assert same.equivalent > 0.99
     far = posterior(base + 0.1, base, 0.01)      # first better everywhere by 10 ropes
-    assert far.left > 0.99
-    assert posterior(base, base + 0.1, 0.01).right > 0.99
+    assert far.a_better > 0.99
+    assert posterior(base, base + 0.1, 0.01).b_better > 0.99
 
 
 def test_two_methods_all_ties_and_lower_is_better():

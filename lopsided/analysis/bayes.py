@@ -16,9 +16,9 @@ import numpy as np
 
 @dataclass(frozen=True)
 class BayesResult:
-    left: float    # P(the first method is practically better)
-    rope: float    # P(practically equivalent: within the region of practical equivalence)
-    right: float   # P(the second method is practically better)
+    a_better: float     # P(the first method is practically better): theta_left is the largest
+    equivalent: float   # P(practically equivalent: within the region of practical equivalence)
+    b_better: float     # P(the second method is practically better): theta_right is the largest
 
 
 def dirichlet_weights(n, samples=4000, prior=1.0, seed=0):
@@ -43,7 +43,7 @@ class SignedRank:
         self._picked = np.empty_like(self.weights)
 
     def __call__(self, first, second, rope):
-        """P(left), P(rope), P(right) for paired scores, higher = better; left = ``first`` is better."""
+        """P(a better), P(equivalent), P(b better) for paired scores a = ``first``, b = ``second``, higher = better."""
         z = np.concatenate([[0.0], np.asarray(second, dtype=float) - np.asarray(first, dtype=float)])
         order = np.argsort(z, kind="mergesort")
         zs, W, C = z[order], self._sorted, self._cumulative

@@ -5,9 +5,9 @@ on the left, the rest on the right, one row each, so long names never collide; b
 axis join methods closer than the critical difference; the CD is drawn to scale above the axis.
 """
 import matplotlib
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
+from .compare import MIN_DATASETS
 
 INK, MUTED, BAR, MARK, GRID = "#1d2935", "#5b6b7a", "#2f7f79", "#c8553d", "#dfe4e8"
 FONT = 9.0
@@ -26,8 +26,7 @@ def draw(result, stem, title=None):
     bars = result.groups
     height = 1.25 + ROW * (left_n + 1) + 0.14 * len(bars)
     width = scale_in + 2 * label_in
-    plt.rcParams["svg.fonttype"] = "none"
-    fig = plt.figure(figsize=(width, height))
+    fig = Figure(figsize=(width, height))
     ax = fig.add_axes([label_in / width, 0.0, scale_in / width, 1.0])
     ax.set_xlim(1, k)
     ax.set_ylim(-(height - 0.95) / ROW, 0.95 / ROW)
@@ -52,14 +51,16 @@ def draw(result, stem, title=None):
                 ha="right" if on_left else "left", va="center", fontsize=FONT, color=INK, clip_on=False)
     f = result.friedman
     caption = title or f"{result.metric}: average rank over {f.n_datasets} datasets (1 = best)"
-    test = (f"{result.nemenyi.test} critical difference at alpha = {result.alpha:g}; "
-            f"Friedman p = {f.p:.3g}, Iman-Davenport p = {f.iman_davenport_p:.3g}")
+    verdict = (f"no significance claim (N < {MIN_DATASETS})" if not result.claims_allowed
+               else f"{f.decision_test} = {f.decision_p:.3g}")
+    test = (f"N = {f.n_datasets} datasets, k = {f.n_methods} methods; bars: {result.nemenyi.test} test, "
+            f"alpha = {result.alpha:g}; {verdict}")
     fig.text(0.5, 1 - 0.18 / height, caption, ha="center", va="top", fontsize=FONT + 1.5, color=INK, weight="bold")
     fig.text(0.5, 1 - 0.42 / height, test, ha="center", va="top", fontsize=FONT - 0.5, color=MUTED)
     paths = (f"{stem}.svg", f"{stem}.png")
-    fig.savefig(paths[0])
+    with matplotlib.rc_context({"svg.fonttype": "none"}):
+        fig.savefig(paths[0])
     fig.savefig(paths[1], dpi=120)
-    plt.close(fig)
     return paths
 
 

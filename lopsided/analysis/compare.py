@@ -8,6 +8,7 @@ from ..errors import LopsidedError, unknown
 from . import bayes, posthoc, ranks as rankmod
 
 MISSING_POLICIES = ("drop-datasets", "drop-methods")
+MIN_DATASETS = 5   # our rule: below this no significance claim at all (see Comparison.no_claim_reason)
 
 
 class AnalysisError(LopsidedError):
@@ -39,6 +40,21 @@ class Comparison:
     def methods(self):
         return list(self.average_ranks.index)
 
+    @property
+    def claims_allowed(self):
+        """False below MIN_DATASETS datasets: the report then makes no significance claim."""
+        return self.friedman.n_datasets >= MIN_DATASETS
+
+    @property
+    def no_claim_reason(self):
+        """Why no significance claim is made, or '' when claims are allowed."""
+        if self.claims_allowed:
+            return ""
+        return (f"only {self.friedman.n_datasets} datasets: below {MIN_DATASETS} lopsided makes no significance "
+                "claim (the Nemenyi and Bonferroni-Dunn critical differences rest on a large-sample "
+                "approximation, and no two-sided Wilcoxon signed-rank test on 5 or fewer pairs can reach "
+                "p < 0.05: its smallest p is 2 / 2^N)")
+
     def as_json(self):
         """The stats.json content."""
         f = self.friedman
@@ -49,9 +65,20 @@ class Comparison:
             "average_ranks": {m: float(r) for m, r in self.average_ranks.items()},
             "rank_intervals": {m: [float(r.low), float(r.high)] for m, r in self.rank_intervals.iterrows()},
             "friedman": {"chi2": f.chi2, "p": f.p, "chi2_tie_corrected": f.chi2_tie_corrected,
-                         "p_tie_corrected": f.p_tie_corrected, "dof": f.n_methods - 1},
+                         "p_tie_corrected": f.p_tie_corrected, "dof": f.n_methods - 1,
+                         "p_kind": "chi-square approximation (Friedman 1937)",
+                         "reason": "" if np.isfinite(f.chi2_tie_corrected) else
+                         "tie-corrected chi2 undefined: every dataset ties all methods"},
+            "permutation": None if f.permutation is None else {
+                "p": f.permutation.p, "method": f.permutation.method, "draws": f.permutation.draws,
+                "standard_error": f.permutation.standard_error,
+                "reason": f.iman_davenport_note or
+                          "chi-square approximation not adequate (Demšar 2006: needs N > 10 and k > 5)"},
             "iman_davenport": {"F": f.iman_davenport_F, "p": f.iman_davenport_p,
-                               "dof": [f.n_methods - 1, (f.n_methods - 1) * (f.n_datasets - 1)]},
+                               "dof": [f.n_methods - 1, (f.n_methods - 1) * (f.n_datasets - 1)],
+                               "reason": f.iman_davenport_note},
+            "decision": {"p": f.decision_p, "test": f.decision_test, "claims_allowed": self.claims_allowed,
+                         "reason": self.no_claim_reason},
             "nemenyi": {"q_alpha": self.nemenyi.q_alpha, "cd": self.nemenyi.cd,
                         "alpha_0.10": {"q_alpha": self.nemenyi_alpha10.q_alpha, "cd": self.nemenyi_alpha10.cd}},
             "groups": self.groups,
@@ -64,13 +91,13 @@ class Comparison:
 
 
 def _finite(value):
-    """JSON has no NaN or infinity: write them as null and the string 'inf'."""
+    """Strict JSON has no NaN or infinity: they become null (the block's 'reason' field says why)."""
     if isinstance(value, dict):
         return {k: _finite(v) for k, v in value.items()}
     if isinstance(value, list):
         return [_finite(v) for v in value]
     if isinstance(value, float) and not np.isfinite(value):
-        return None if np.isnan(value) else ("inf" if value > 0 else "-inf")
+        return None
     return value
 
 
@@ -145,5 +172,5 @@ def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed):
         b = posterior(oriented[:, i], oriented[:, j], rope)
         rows.append({"a": names[i], "b": names[j], "wilcoxon_p": w, "holm_p": float(h),
                      "nemenyi_p": float(p_matrix[i, j]),
-                     "bayes": {"left": b.left, "rope": b.rope, "right": b.right}})
+                     "bayes": {"a_better": b.a_better, "equivalent": b.equivalent, "b_better": b.b_better}})
     return rows

@@ -17,18 +17,30 @@ import pandas as pd
 from .. import __version__
 from ..analysis import AnalysisError, compare
 from ..analysis.cdplot import draw
-from ..analysis.words import claims
+from ..analysis.words import caption, claims
 from ..metrics import METRICS
 from ..protocol import point_label
 from ..specs import MethodSpec
-from .figures import sweep
-from .tables import COMBINED, method_matrix, points_of, scores_table, with_titles
+from .citations import citation_block
+from .figures import SPREAD, sweep
+from .tables import COMBINED, method_matrix, per_dataset_rows, points_of, scores_table, with_titles
+from .winners import BANDS, winner_rows
 
 CAUTION = ("Benchmark rankings are research evidence about methods on these datasets. They are not a "
            "validation of any diagnostic, screening or safety method; such use is governed by local "
            "regulation and licensed professional practice.")
 ENV = jinja2.Environment(loader=jinja2.PackageLoader("lopsided.report", "templates"),
-                         autoescape=jinja2.select_autoescape(["html"]), trim_blocks=True, lstrip_blocks=True)
+                         autoescape=jinja2.select_autoescape(["html", "html.j2"]), trim_blocks=True,
+                         lstrip_blocks=True)
+
+
+def markdown_text(value):
+    """Text safe inside a Markdown table cell: pipes escaped, no raw HTML, one line."""
+    text = " ".join(str(value).split())
+    return text.replace("\\", "\\\\").replace("|", "\\|").replace("<", "&lt;").replace(">", "&gt;")
+
+
+ENV.filters["md"] = markdown_text
 
 
 def _titles(suite):
@@ -48,10 +60,11 @@ def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
     """Comparisons per protocol point, across all combinations and per learner; CD plots to figures_dir.
 
     Every listed metric is compared at the first point, the headline metric (first listed) at the
-    others. Within one learner, the first listed resampler is the control of the Bonferroni-Dunn test.
+    others. Within one learner, the suite's control resampler (default: the first listed; "none" for
+    no test) is the control of the Bonferroni-Dunn test.
     """
-    sections, stats = [], {}
-    control = suite["resamplers"][0]["label"]
+    sections, stats = [], []
+    control = _control(suite)
     learners = [s["label"] for s in suite["learners"]]
     for index, (ratio, size) in enumerate(points_of(scores, suite["protocol"])):
         point = f"ratio={ratio}, size={size}"
@@ -70,10 +83,36 @@ def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
                 stem = figures_dir / _slug("cd", metric, ratio, size, learner or "all")
                 draw(result, str(stem), title=f"{metric} at {point}: {view}")
                 entry.update(result=result, figure=f"figures/{stem.name}.svg", claims=claims(result),
+                             caption=caption(result, f"{metric}, training ratio {ratio}, size {size}, {view}"),
                              table=_leaderboard_rows(result, scores, ratio, size, learner, suite["metrics"]))
-                stats.setdefault(point, {}).setdefault(metric, {})[view] = result.as_json()
+                stats.append({"metric": metric, "ratio": ratio, "size": size,
+                              "view": "all" if learner is None else "learner", "learner": learner,
+                              **result.as_json()})
                 sections.append(entry)
     return sections, stats
+
+
+def _control(suite):
+    """The Bonferroni-Dunn control label, or None ("none" in the suite)."""
+    chosen = suite.get("control", "")
+    if chosen == "none":
+        return None
+    return chosen or suite["resamplers"][0]["label"]
+
+
+def per_dataset_tables(suite, scores, imbalance):
+    """Headline metric at the first point, one datasets x resamplers table per learner, best marked."""
+    points = points_of(scores, suite["protocol"])
+    if not points:
+        return []
+    (ratio, size), metric = points[0], suite["metrics"][0]
+    tables = []
+    for learner in (s["label"] for s in suite["learners"]):
+        matrix = method_matrix(scores, metric, ratio, size, learner)
+        order = [s["label"] for s in suite["resamplers"] if s["label"] in matrix.columns]
+        tables.append({"learner": learner, "metric": metric, "point": f"ratio={ratio}, size={size}",
+                       "methods": order, "rows": per_dataset_rows(matrix[order], imbalance)})
+    return tables
 
 
 def _leaderboard_rows(result, scores, ratio, size, learner, metrics):
@@ -97,19 +136,23 @@ SWEEP_METRICS = ("sensitivity", "specificity")   # recall of the minority class 
 
 def _sweeps(suite, scores, figures_dir):
     """Every suite metric, then minority and majority recall, against ratio and against size."""
-    paths = []
+    made = []
     order = [s["label"] for s in suite["resamplers"]]
     metrics = list(dict.fromkeys([*suite["metrics"], *SWEEP_METRICS]))
-    for axis, fixed_values in (("ratio", suite["protocol"]["sizes"]), ("size", suite["protocol"]["ratios"])):
-        for fixed in fixed_values:
-            label = point_label(fixed)
+    protocol = suite["protocol"]
+    for axis, values, others in (("ratio", protocol["ratios"], protocol["sizes"]),
+                                 ("size", protocol["sizes"], protocol["ratios"])):
+        labels = [point_label(v) for v in values]
+        for fixed in map(point_label, others):
             for metric in metrics:
-                stem = figures_dir / _slug("sweep", metric, axis, label)
-                made = sweep(scores, metric, axis, label, order, str(stem))
-                if made:
-                    paths.append({"axis": axis, "fixed": label, "metric": metric,
-                                  "figure": f"figures/{Path(made[0]).name}"})
-    return paths
+                stem = figures_dir / _slug("sweep", metric, axis, fixed)
+                drawn = sweep(scores, metric, axis, fixed, labels, order, str(stem))
+                if drawn is None:
+                    continue
+                made.append({"axis": axis, "fixed": fixed, "metric": metric, "datasets": drawn["datasets"],
+                             "left_out": drawn["left_out"],
+                             "figure": f"figures/{Path(drawn['paths'][0]).name}" if drawn["paths"] else None})
+    return made
 
 
 def leakage_rows(grouped_cells, random_cells, suite):
@@ -156,8 +199,13 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
         titled = with_titles(cells, _titles(suite))
         scores = scores_table(titled)
         sections, stats = build_sections(suite, scores, staging / "figures", alpha, rope)
+        imbalance = {d["reference"]: d["imbalance_ratio"] for d in summary.get("datasets", [])}
         context = {
             "suite": suite, "summary": summary, "caution": CAUTION, "sections": sections,
+            "control": _control(suite), "alpha": alpha, "bands": [label for _, _, label in BANDS],
+            "winners": winner_rows(scores, suite, imbalance, alpha, rope),
+            "per_dataset": per_dataset_tables(suite, scores, imbalance), "spread": SPREAD,
+            "methods": summary.get("methods", []), "citation": citation_block(suite, summary).text(),
             "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
             "failures": _notes(titled, "error"), "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
             "leakage": summary.get("split_leakage", []),
@@ -169,8 +217,11 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
         scores.to_csv(staging / "scores.csv", index=False, float_format="%.8g")
         titled.sort_values(["dataset", "ratio", "size", "repeat", "fold", "resampler", "learner"]).to_csv(
             staging / "cells.csv", index=False, float_format="%.8g")
-        (staging / "stats.json").write_text(json.dumps(stats, indent=1), encoding="utf-8")
-        (staging / "manifest.json").write_text(json.dumps(summary, indent=1, default=str), encoding="utf-8")
+        (staging / "stats.json").write_text(json.dumps({"comparisons": stats}, indent=1, allow_nan=False),
+                                            encoding="utf-8")
+        (staging / "manifest.json").write_text(json.dumps(summary, indent=1, default=str, allow_nan=False),
+                                               encoding="utf-8")
+        (staging / "citation.bib").write_text(context["citation"], encoding="utf-8")
         _move_into_place(staging, out)
     finally:
         shutil.rmtree(staging, ignore_errors=True)

@@ -57,3 +57,22 @@ def points_of(scores, protocol):
     present = set(zip(scores["ratio"], scores["size"]))
     points = [(point_label(r), point_label(s)) for r in protocol["ratios"] for s in protocol["sizes"]]
     return [p for p in points if p in present]
+
+
+def per_dataset_rows(matrix, imbalance, digits=3):
+    """Rows of a datasets x methods ``matrix`` ordered by natural imbalance ratio, with the best marked.
+
+    Returns {"dataset", "ratio", "scores", "best"} per dataset; ``best`` holds the column positions whose
+    value, shown to ``digits`` decimals, equals the row's highest (so equal-looking values are all marked);
+    a missing value (failed or not run) is None.
+    """
+    order = sorted(matrix.index, key=lambda d: (imbalance.get(d, np.inf), d))
+    rows = []
+    for dataset in order:
+        values = matrix.loc[dataset].to_numpy(dtype=float)
+        shown = np.round(values, digits)
+        top = np.nanmax(shown) if np.isfinite(shown).any() else np.nan
+        rows.append({"dataset": dataset, "ratio": imbalance.get(dataset),
+                     "scores": [None if np.isnan(v) else float(v) for v in values],
+                     "best": {i for i, v in enumerate(shown) if v == top}})
+    return rows

@@ -38,7 +38,8 @@ def over_targets(y, balance):
     """{class: extra samples needed} so every class reaches round(balance * largest count).
 
     Multi-class rule: each smaller class is raised relative to the largest class;
-    classes already at or above the target are left alone.
+    classes already at or above the target are left alone. The target is rounded to the nearest
+    count (a common reference implementation truncates it and takes a ratio for two classes only).
     """
     labels, counts = np.unique(y, return_counts=True)
     goal = int(round(check_balance(balance) * counts.max()))
@@ -46,7 +47,10 @@ def over_targets(y, balance):
 
 
 def under_targets(y, balance):
-    """{class: samples to keep} so no class exceeds round(smallest count / balance)."""
+    """{class: samples to keep} so no class exceeds round(smallest count / balance).
+
+    Rounded to the nearest count, where a common reference implementation truncates (30 / 0.7:
+    43 here, 42 there)."""
     labels, counts = np.unique(y, return_counts=True)
     cap = int(round(counts.min() / check_balance(balance)))
     return {label: cap for label, count in zip(labels, counts) if count > cap}

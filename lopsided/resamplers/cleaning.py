@@ -24,7 +24,12 @@ def _larger_class_member(pairs, y):
 
 class TomekLinks:
     """Removes Tomek links (Tomek 1976): by default only the member from the larger class, with
-    ``remove="both"`` both members (as in Batista, Prati & Monard 2004)."""
+    ``remove="both"`` both members (as in Batista, Prati & Monard 2004).
+
+    Two identical rows with different labels form a link (distance 0, nothing closer), which a common
+    reference implementation misses. With three or more classes the default removes one member of
+    every link, also of a link between two larger classes, where that reference's default removes
+    every member outside the smallest class."""
 
     def __init__(self, remove="larger", random_state=None):
         self.remove = remove
@@ -41,8 +46,9 @@ class TomekLinks:
 
 
 def enn_removals(X, y, k, candidates):
-    """Boolean mask: candidate rows whose k nearest neighbours are mostly (> k / 2) of other classes
-    (Wilson 1972, IEEE Trans. SMC 2:408, editing rule)."""
+    """Boolean mask: candidate rows whose k nearest neighbours are mostly (> k / 2) of other classes,
+    all other classes counted together; exactly k / 2 keeps the row (Wilson 1972, IEEE Trans. SMC 2:408,
+    editing rule)."""
     near = neighbours_within(X, k)
     other = (y[near] != y[:, None]).sum(axis=1)
     return candidates & (other > near.shape[1] / 2)
@@ -51,7 +57,13 @@ def enn_removals(X, y, k, candidates):
 class EditedNearestNeighbours:
     """Edited nearest neighbours (Wilson 1972): removes a sample when most of its ``neighbours``
     nearest neighbours belong to other classes. ``classes="majority"`` edits only the largest
-    class (the usual under-sampling use); ``"all"`` edits every class (as in Batista et al. 2004)."""
+    class (the usual under-sampling use); ``"all"`` edits every class (as in Batista et al. 2004).
+
+    Other classes are counted together and a tie keeps the sample. A common reference implementation
+    (its 'mode' rule) instead keeps a sample whose label is the most frequent among its neighbours,
+    ties going to the smallest label: the same with two classes and odd k, different with three
+    classes (neighbours of labels own, a, b) and on even-k ties. Its default edits every class but
+    the smallest; ``classes`` here names the largest or all."""
 
     def __init__(self, neighbours=3, classes="majority", random_state=None):
         self.neighbours = neighbours

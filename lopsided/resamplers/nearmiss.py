@@ -8,6 +8,9 @@ distance to the smallest class (the minority):
   the class; among those, the largest mean distance to their ``neighbours`` nearest minority samples
   (when that short list is smaller than the target, all of it is kept: fewer samples than asked).
 Distances to all minority samples (version 2) are computed in blocks, never as one matrix.
+Equal scores keep the earlier row (stable sort). With fewer minority samples than ``neighbours`` the
+mean runs over all of them, where a common reference implementation stops with an error; the target
+count is rounded to the nearest whole number (see ``base.under_targets``).
 """
 import numpy as np
 from sklearn.metrics import pairwise_distances_chunked

@@ -44,7 +44,9 @@ class SMOTE(_Synthetic):
 
     Each new point lies on the segment between a minority sample and one of its ``neighbours``
     nearest minority neighbours, at a uniform random position. The extra count is spread as
-    evenly as possible over the minority samples (section 4.2's N% rule).
+    evenly as possible over the minority samples (section 4.2's N% rule), where a common reference
+    implementation draws each new point's seed at random. With fewer than k + 1 minority samples
+    k falls to (samples - 1); that reference stops with an error.
     """
 
     def _synthesise(self, X, y, members, extra, rng):
@@ -65,8 +67,11 @@ class BorderlineSMOTE(_Synthetic):
 
     Only minority samples in the danger set seed new points. Variant 1 interpolates towards the
     seed's k nearest minority neighbours; variant 2 towards its k nearest neighbours of any class,
-    with the gap drawn from U(0, 0.5) when the neighbour is of another class. With an empty
-    danger set nothing is generated (the paper's rule; the class stays as it is).
+    with the gap drawn from U(0, 0.5) when the neighbour is of another class (section 3.2; a
+    common reference implementation multiplies such a factor by its usual U(0, 1) step, so its
+    gaps average 0.125 rather than 0.25). With an empty danger set nothing is generated (the
+    paper's rule; the class stays as it is). The danger set is the same as that reference's;
+    k falls for small classes as in SMOTE.
     """
 
     def __init__(self, balance=1.0, neighbours=5, danger_neighbours=10, variant=1, random_state=None):
@@ -102,6 +107,8 @@ class ADASYN(_Synthetic):
     total is exact), r_i = share of other-class samples among its K nearest neighbours in the
     whole set; points are made towards its k nearest minority neighbours. If no minority
     sample has another class among its neighbours, counts fall back to an even spread.
+    A common reference implementation rounds each g_i to the nearest whole number, so its total can
+    miss G by a few points, and stops with an error where this falls back or where k falls as in SMOTE.
     """
 
     def _synthesise(self, X, y, members, extra, rng):

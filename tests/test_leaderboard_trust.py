@@ -1,0 +1,170 @@
+"""A leaderboard that claims no more than its data allow: methods that stay, like-for-like sweeps,
+winners per imbalance band, per-dataset tables, captions and a citation block."""
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from lopsided.analysis import compare
+from lopsided.cli import main
+from lopsided.errors import SuiteError
+from lopsided.report.figures import comparable_datasets, positions, sweep
+from lopsided.report.winners import band_of, winner_rows
+from lopsided.store import Store
+from lopsided.suite import load_suite
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def _strict_json(path):
+    """json.loads that refuses NaN and Infinity, as a strict JSON reader would."""
+    def refuse(name):
+        raise ValueError(f"{path}: non-standard JSON constant {name}")
+    return json.loads(Path(path).read_text(encoding="utf-8"), parse_constant=refuse)
+
+
+def test_rank_on_two_agreeing_datasets_claims_nothing_and_reports_one_sixth(tmp_path, capsys):
+    """Two datasets ranking three methods identically: under the null the chance of that is
+    3! / (3!)^2 = 1/6 (each dataset's ranking uniform over 3! orders), so nothing can be rejected."""
+    scores = tmp_path / "two.csv"
+    scores.write_text("dataset,a,b,c\nd1,0.9,0.8,0.7\nd2,0.95,0.85,0.75\n", encoding="utf-8")
+    assert main(["rank", str(scores), "--out", str(tmp_path / "r")]) == 0
+    stats = _strict_json(tmp_path / "r" / "stats.json")
+    assert stats["permutation"]["method"] == "exact"
+    assert stats["permutation"]["p"] == pytest.approx(1 / 6, abs=1e-15)
+    assert stats["decision"]["p"] == pytest.approx(1 / 6, abs=1e-15)
+    assert stats["iman_davenport"]["F"] is None and "identically" in stats["iman_davenport"]["reason"]
+    assert stats["decision"]["claims_allowed"] is False
+    text = (tmp_path / "r" / "ranking.md").read_text(encoding="utf-8")
+    assert "No significance claim" in text and "rejects" not in text and "inf" not in text.split()
+
+
+def test_perfect_agreement_on_six_datasets_is_decided_by_the_exact_p_not_by_an_infinite_f():
+    """Six datasets, three methods, identical rankings: exact p = 3! / 6^6 = 1/7776 (Friedman 1937)."""
+    table = pd.DataFrame([[0.9, 0.8, 0.7]] * 6, columns=["a", "b", "c"], index=[f"d{i}" for i in range(6)])
+    result = compare(table)
+    assert result.friedman.iman_davenport_F is None
+    assert result.friedman.decision_p == pytest.approx(1 / 6 ** 5, rel=1e-12)
+    assert result.claims_allowed
+    json.dumps(result.as_json(), allow_nan=False)
+
+
+@pytest.fixture
+def small_suite(write_suite):
+    return write_suite(ratios='["natural"]')
+
+
+def test_an_added_resampler_stays_through_reruns_and_reports_until_dropped(small_suite, tmp_path, capsys):
+    out = tmp_path / "o"
+    assert main(["run", str(small_suite), "--out", str(out), "--quiet",
+                 "--add-resampler", "repeat-over", "--add-resampler", "plugins_for_tests:Halves"]) == 0
+    capsys.readouterr()
+    assert main(["run", str(small_suite), "--out", str(out), "--quiet"]) == 0        # a plain rerun
+    assert " 0 computed" in capsys.readouterr().out                                # nothing refitted
+    manifest = _strict_json(out / "manifest.json")
+    added = [m for m in manifest["methods"] if m["origin"] == "added"]
+    assert [m["label"] for m in added] == ["repeat-over", "plugins_for_tests:Halves"]
+    assert all("--add-resampler repeat-over" in m["command"] for m in added)
+    board = (out / "leaderboard.md").read_text(encoding="utf-8")
+    assert "plugins_for_tests:Halves" in board and "--add-resampler" in board
+    assert main(["report", str(small_suite), "--out", str(out)]) == 0             # rebuilt: still there
+    assert "plugins_for_tests:Halves" in pd.read_csv(out / "scores.csv")["resampler"].tolist()
+    assert main(["report", str(small_suite), "--out", str(out), "--drop-resampler", "repeat-over"]) == 0
+    scores = pd.read_csv(out / "scores.csv")
+    assert "repeat-over" not in set(scores["resampler"]) and "plugins_for_tests:Halves" in set(scores["resampler"])
+    db = Store(out / "store.sqlite")
+    assert "repeat-over" in set(db.cells()["resampler"])                           # cells are kept
+    db.close()
+    assert main(["run", str(small_suite), "--out", str(out), "--quiet"]) == 0
+    assert "repeat-over" not in set(pd.read_csv(out / "scores.csv")["resampler"])
+    capsys.readouterr()
+    assert main(["run", str(small_suite), "--out", str(out), "--quiet", "--drop-resampler", "none"]) == 2
+    assert "listed in the suite file" in capsys.readouterr().err
+    assert main(["report", str(small_suite), "--out", str(out), "--drop-resampler", "repeat-ovr"]) == 2
+    assert "unknown added resampler 'repeat-ovr'" in capsys.readouterr().err       # repeat-over is dropped already
+
+
+def test_the_leaderboard_has_winners_per_band_a_per_dataset_table_captions_and_citations(small_suite, tmp_path):
+    out = tmp_path / "o"
+    assert main(["run", str(small_suite), "--out", str(out), "--quiet"]) == 0
+    board = (out / "leaderboard.md").read_text(encoding="utf-8")
+    for needle in ("## Who wins where", "## Per-dataset balanced_accuracy with logistic-regression",
+                   "Ranked by balanced_accuracy average rank", "_Critical-difference diagram of",
+                   "## How to cite", "@misc{run-tiny-", "chawla2002" if "smote" in board else "demsar2006",
+                   "control for Bonferroni-Dunn: none"):
+        assert needle in board, needle
+    assert (out / "citation.bib").read_text(encoding="utf-8").count("@") >= 5
+    stats = _strict_json(out / "stats.json")
+    views = {(c["metric"], c["view"], c["learner"]) for c in stats["comparisons"]}
+    assert ("balanced_accuracy", "all", None) in views
+    assert "&amp;" in (out / "index.html").read_text(encoding="utf-8")      # references with & are escaped
+    _strict_json(out / "manifest.json")
+
+
+def test_control_none_turns_the_bonferroni_dunn_test_off(write_suite, tmp_path):
+    suite = load_suite(write_suite(extra='control = "none"', ratios='["natural"]'))
+    assert suite.control_label is None
+    assert load_suite(write_suite(extra='control = "topup-over"', ratios='["natural"]')).control_label == "topup-over"
+    with pytest.raises(SuiteError, match="control: unknown resampler 'topup-ovr' .did you mean 'topup-over'"):
+        load_suite(write_suite(extra='control = "topup-ovr"', ratios='["natural"]'))
+
+
+def _scores(values):
+    """A scores table from {(dataset, ratio): {resampler: value}} for one learner."""
+    rows = [{"dataset": d, "ratio": r, "size": "all", "resampler": m, "learner": "lr", "n_failed": 0,
+             "balanced_accuracy_mean": v} for (d, r), methods in values.items() for m, v in methods.items()]
+    return pd.DataFrame(rows)
+
+
+def test_a_sweep_uses_the_same_datasets_at_every_point(tmp_path):
+    """Dataset C exists at ratio 2 only: averaging it in at one x would move the line for no reason."""
+    values = {("A", "natural"): {"x": 0.7, "y": 0.6}, ("A", "2"): {"x": 0.8, "y": 0.7}, ("A", "8"): {"x": 0.6, "y": 0.5},
+              ("B", "natural"): {"x": 0.9, "y": 0.8}, ("B", "2"): {"x": 0.9, "y": 0.9}, ("B", "8"): {"x": 0.8, "y": 0.7},
+              ("C", "2"): {"x": 0.1, "y": 0.1}}
+    scores = _scores(values)
+    kept = comparable_datasets(scores.assign(value=scores["balanced_accuracy_mean"]), "ratio", ["natural", "2", "8"],
+                               {("x", "lr"), ("y", "lr")})
+    assert kept == ["A", "B"]
+    drawn = sweep(scores, "balanced_accuracy", "ratio", "all", ["natural", "2", "8"], ["x", "y"], str(tmp_path / "s"))
+    assert drawn["datasets"] == ["A", "B"] and drawn["left_out"] == ["C"]
+    assert all(Path(p).stat().st_size > 0 for p in drawn["paths"])
+    place = positions(["natural", "2", "8"], "ratio")
+    assert place["natural"] < place["2"] < place["8"]       # 'natural' drawn beside the scale, at the left
+
+
+def test_winner_rows_split_the_natural_point_by_imbalance_band():
+    """Bands IR < 3, 3-9, >= 9 (low / medium / high; Fernández et al. 2008, from memory)."""
+    assert [band_of(r) for r in (1.0, 2.99, 3.0, 8.9, 9.0, 130.0)] == ["IR < 3", "IR < 3", "3 <= IR < 9",
+                                                                      "3 <= IR < 9", "IR >= 9", "IR >= 9"]
+    rng = np.random.default_rng(3)
+    ratios = {f"d{i}": r for i, r in enumerate([1.5, 2, 2.5, 4, 5, 6, 7, 8, 10, 20, 40, 60, 80, 2.2, 5.5])}
+    values = {(d, "natural"): {"best": 0.9 + rng.normal(0, 0.01), "mid": 0.7 + rng.normal(0, 0.01),
+                               "low": 0.5 + rng.normal(0, 0.01)} for d in ratios}
+    suite = {"protocol": {"ratios": ["natural"], "sizes": ["all"]}, "metrics": ["balanced_accuracy"]}
+    rows = winner_rows(_scores(values), suite, ratios)
+    by_band = {r["band"]: r for r in rows}
+    assert by_band["IR < 3"]["n"] == 4 and by_band["3 <= IR < 9"]["n"] == 6 and by_band["IR >= 9"]["n"] == 5
+    assert all(r["best"] == "best + lr" for r in rows)
+    assert by_band["3 <= IR < 9"]["p"] < 0.05 and "is best" in by_band["3 <= IR < 9"]["claim"]
+    assert "no claim: only 4 datasets" in by_band["IR < 3"]["claim"] and by_band["IR < 3"]["tied"] == []   # four datasets: no claim
+
+
+CELL_COLUMNS = {"dataset", "ratio", "size", "repeat", "fold", "resampler", "learner", "status", "error", "warning",
+                "resample_seconds", "fit_seconds", "predict_seconds", "n_train", "n_test", "seed"}
+
+
+@pytest.mark.parametrize("folder", sorted(p.name for p in (ROOT / "results").iterdir() if p.is_dir()))
+def test_committed_leaderboards_come_from_real_runs(folder):
+    board = ROOT / "results" / folder
+    manifest = _strict_json(board / "manifest.json")
+    assert manifest["seconds"] > 0 and manifest["jobs"] >= 1 and manifest["command"].startswith("lopsided run ")
+    assert manifest["started_at"] < manifest["finished_at"]
+    assert {"chemotools", "openml", "numpy", "scikit-learn"} <= set(manifest["versions"])
+    header = set(pd.read_csv(board / "cells.csv", nrows=0).columns)
+    assert CELL_COLUMNS | set(load_suite(ROOT / "bench" / f"{folder}.toml").metrics) <= header
+    _strict_json(board / "stats.json")
+    text = (board / "leaderboard.md").read_text(encoding="utf-8")
+    for needle in ("## Who wins where", "## Per-dataset", "## How to cite", "```bibtex", "research evidence"):
+        assert needle in text, needle
