@@ -1,16 +1,18 @@
 """The main job, end to end: suite file -> datasets -> plan -> store -> leaderboard folder."""
 import platform
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from importlib import metadata
 from pathlib import Path
 
+import numpy as np
+
 from . import __version__
 from . import resamplers as resampler_registry
+from .analysis.complexity import meta_features
 from .datasets import load_dataset
-from .errors import LopsidedError, StoreError, SuiteError
+from .errors import LopsidedError, StoreError, SuiteError, unknown
 from .report import leakage_rows, skipped_summary, write_report
-from .errors import unknown
 from .runner import plan, run_plan
 from .specs import MethodSpec, parse_method
 from .store import Store, now
@@ -26,10 +28,12 @@ class RunResult:
     store: Path
     summary: dict
     cells: object        # pandas DataFrame of this suite's stored cells
+    skipped: list = field(default_factory=list)   # infeasible fold-points of the plan
 
 
-def versions():
-    found = {"python": platform.python_version(), "lopsided": __version__}
+def versions() -> dict[str, str | None]:
+    """Versions of Python, lopsided and every package a result depends on (None: not installed)."""
+    found: dict[str, str | None] = {"python": platform.python_version(), "lopsided": __version__}
     for name in PACKAGES:
         try:
             found[name] = metadata.version(name)
@@ -89,8 +93,8 @@ def load_all(suite):
     """Every dataset of the suite; twin sets (the same samples and labels under two names, such as
     KEEL's new_thyroid1 and new_thyroid2) are refused, since rank-based tests would count one task twice.
     Different tasks cut from the same samples (glass1, glass6) are allowed: curated suites limit them per family."""
-    datasets = {reference: load_dataset(reference) for reference in suite.datasets}
-    seen = {}
+    datasets = {reference: load_dataset(reference, base=suite.folder) for reference in suite.datasets}
+    seen: dict[str, str] = {}
     for reference, data in datasets.items():
         if data.checksum in seen:
             raise SuiteError(suite.source, "datasets", f"{seen[data.checksum]} and {reference} hold the same "
@@ -112,8 +116,8 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
     if not isinstance(jobs, int) or jobs < 1:
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
     command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
-    out = Path(out or Path("results") / base.name)
-    store_path = Path(store or base.store or out / "store.sqlite")
+    out = Path(out or base.path(base.out) or Path("results") / base.name)
+    store_path = Path(store or base.path(base.store) or out / "store.sqlite")
     started, clock = now(), time.perf_counter()
     db = Store(store_path)
     try:
@@ -139,7 +143,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
     report_clock = time.perf_counter()
     write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
     summary["report_seconds"] = round(time.perf_counter() - report_clock, 2)
-    return RunResult(out, store_path, summary, cells)
+    return RunResult(out, store_path, summary, cells, full.skipped)
 
 
 def _python_call(name, path, add, drop):
@@ -159,11 +163,28 @@ def _summary(suite, datasets, full, cells, counts, origins):
                   "computed": counts["computed"], "failed_now": counts["failed"],
                   "skipped_points": counts["skipped_points"]},
         "skipped": skipped_summary(full.skipped),
-        "datasets": [{"reference": ref, **data.meta(), "checksum": data.checksum, "note": data.provenance.note,
-                      "source": data.provenance.source, "citation": data.provenance.citation,
-                      "licence": data.provenance.licence}
+        "datasets": [{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
+                      "note": data.provenance.note, "source": data.provenance.source,
+                      "citation": data.provenance.citation, "licence": data.provenance.licence}
                      for ref, data in datasets.items()],
     }
+
+
+def overlap(data):
+    """Class-overlap meta-features for the manifest: Fisher's F1 and N1 (Ho & Basu 2002).
+
+    Missing values are replaced by the column median for this purpose only. F1 is infinite when one feature
+    separates the classes with no spread inside them: strict JSON has no infinity, so it is then null with
+    ``f1_separable`` true.
+    """
+    X = np.array(data.X, dtype=float)
+    if np.isnan(X).any():
+        medians = np.nan_to_num(np.nanmedian(np.where(np.isnan(X).all(axis=0), 0.0, X), axis=0))
+        X = np.where(np.isnan(X), medians, X)
+    found = meta_features(X, data.y)
+    separable = not np.isfinite(found.f1)
+    return {"f1": None if separable else round(float(found.f1), 6), "f1_separable": separable,
+            "n1": round(float(found.n1), 6)}
 
 
 RUN_FIELDS = ("started_at", "finished_at", "seconds", "jobs", "command")
@@ -181,8 +202,8 @@ def rebuild_report(target, out=None, alpha=0.05, rope=0.01, drop_resamplers=(), 
     if target.suffix != ".toml":
         return _rebuild_from_store(target, out, alpha, rope, drop_resamplers, command)
     base = load_suite(target)
-    out = Path(out or Path("results") / base.name)
-    store_path = Path(base.store or out / "store.sqlite")
+    out = Path(out or base.path(base.out) or Path("results") / base.name)
+    store_path = Path(base.path(base.store) or out / "store.sqlite")
     if not store_path.is_file():
         raise StoreError(f"{store_path}: no result store for suite {base.name!r}; run it first")
     db = Store(store_path, create=False)

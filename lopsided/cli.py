@@ -49,6 +49,17 @@ def parser():
     rank.add_argument("--metric", default="score", help="name of the score, for titles")
     _stats_options(rank)
 
+    gate = sub.add_parser("compare", help="compare two leaderboard folders; exit 1 when ranks or scores moved too far")
+    gate.add_argument("baseline", help="leaderboard folder to compare against, e.g. the committed results/gate")
+    gate.add_argument("new", help="leaderboard folder of the change under review")
+    gate.add_argument("--rank-threshold", type=float, metavar="R",
+                      help="largest allowed move of an average rank (default: each comparison's Nemenyi CD "
+                           "in the baseline)")
+    gate.add_argument("--tolerance", type=float, default=0.02, metavar="T",
+                      help="largest allowed move of a row's metric mean, in metric units (default 0.02)")
+    gate.add_argument("--metric", help="metric of the score check (default: the baseline's headline metric)")
+    gate.add_argument("--out", help="also write the Markdown summary to this file")
+
     listing = sub.add_parser("list", help="what is available")
     listing.add_argument("kind", choices=LIST_KINDS)
 
@@ -65,6 +76,24 @@ def parser():
     data_fetch.add_argument("collection", choices=("keel",))
     data_check = data_sub.add_parser("check", help="re-verify a manifest against its source (needs a network)")
     data_check.add_argument("collection", choices=("openml",))
+
+    trial = sub.add_parser("try", help="your dataset against the best combinations of a stored leaderboard")
+    trial.add_argument("dataset", help="dataset reference, e.g. file:films.csv?label=status&group=donor")
+    trial.add_argument("--suite", default="bench/quick.toml", help="benchmark suite whose leaderboard names the "
+                       "candidates (default bench/quick.toml)")
+    trial.add_argument("--board", help="that suite's leaderboard folder (default its results folder)")
+    trial.add_argument("--top", type=int, default=5, help="how many of its best combinations to run (default 5)")
+    trial.add_argument("--with", dest="combos", action="append", default=[], metavar="'RESAMPLER + LEARNER'",
+                       help="run this combination instead of the leaderboard's top; repeatable")
+    trial.add_argument("--target", action="append", default=[], metavar="METRIC=VALUE",
+                       help="learning-curve target, e.g. sensitivity=0.9 (needs 3+ --sizes); repeatable")
+    trial.add_argument("--sizes", help="training sizes for the learning curve, e.g. 20,40,80,all")
+    trial.add_argument("--repeats", type=int, help="repeats (default: the suite's)")
+    trial.add_argument("--folds", type=int, help="folds (default: the suite's)")
+    trial.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
+    trial.add_argument("--out", help="folder to write (default results/try-<dataset>)")
+    trial.add_argument("--quiet", action="store_true", help="no progress bar")
+    _stats_options(trial)
     return top
 
 
@@ -81,17 +110,28 @@ def _stats_options(command):
 
 def main(argv=None):
     argv = sys.argv[1:] if argv is None else list(argv)
-    args = parser().parse_args(argv)
-    args.command_line = shlex.join(["lopsided", *argv])
-    try:
-        return COMMANDS[args.command](args) or 0
+    command = None
+    try:                            # parsing too: --help into a closed pipe, Ctrl-C while it starts
+        args = parser().parse_args(argv)
+        command = args.command
+        args.command_line = shlex.join(["lopsided", *argv])
+        code = COMMANDS[command](args) or 0
+        sys.stdout.flush()          # a closed pipe shows here, inside the try, not at interpreter exit
+        return code
     except LopsidedError as exc:
         if args.debug:
             traceback.print_exc()
         print(f"lopsided: error: {exc}", file=sys.stderr)
         return 2
+    except BrokenPipeError:
+        # The reader (head, less, grep -q) closed the pipe: it has what it wanted. Exit quietly with 0 so
+        # `set -o pipefail` scripts do not fail; send what is still buffered to devnull so the exit flush is quiet.
+        import os
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
     except KeyboardInterrupt:
-        print("lopsided: interrupted; finished work units are stored, run again to resume", file=sys.stderr)
+        resume = "; finished work units are stored, run again to resume" if command == "run" else ""
+        print(f"lopsided: interrupted{resume}", file=sys.stderr)
         return 130
 
 
@@ -140,18 +180,30 @@ def _rank(args):
     print((out / "ranking.md").read_text().split("\n## ", 1)[0])
 
 
+def _compare(args):
+    from .regression import gate, write_summary
+    result, text = gate(args.baseline, args.new, metric=args.metric, rank_threshold=args.rank_threshold,
+                        tolerance=args.tolerance)
+    print(text)
+    if args.out:
+        write_summary(args.out, text)
+    return 1 if result.failed else 0
+
+
 def _list(args):
     from . import datasets, metrics
+    from .registry import BUILT_IN, Listing
     rows = {
-        "datasets": datasets.available,
+        "datasets": datasets.DATASETS.describe,
         "resamplers": resamplers.describe,
         "learners": learners.describe,
-        "metrics": lambda: list(metrics.METRICS.items()),
+        "metrics": lambda: [Listing(name, text, BUILT_IN) for name, text in metrics.METRICS.items()],
         "preprocessing": preprocessing.describe,
     }[args.kind]()
-    width = max(len(name) for name, _ in rows)
-    for name, text in rows:
-        print(f"{name.ljust(width)}  {text}")
+    width = max(len(row.name) for row in rows)
+    origin = max(len(row.origin) for row in rows)
+    for row in rows:
+        print(f"{row.name.ljust(width)}  {row.origin.ljust(origin)}  {row.text}")
 
 
 BUILT_IN_EXAMPLES = ["sklearn:digits?positive=0", "sklearn:wine?positive=2", "sklearn:iris?positive=1",
@@ -163,8 +215,10 @@ LIST_COLUMNS = ["reference", "n", "d", "nominal", "missing", "duplicates", "mino
 def _datasets(args):
     from . import datasets
     if args.action == "show":
-        data = datasets.load_dataset(args.reference)
-        for key, value in {**data.meta(), "checksum": data.checksum, "citation": data.provenance.citation,
+        with datasets.cache.no_downloads():
+            data = datasets.load_dataset(args.reference)
+        axis = {"axis": data.axis_summary()} if data.axis is not None else {}
+        for key, value in {**data.meta(), **axis, "checksum": data.checksum, "citation": data.provenance.citation,
                            "licence": data.provenance.licence, "note": data.provenance.note,
                            "class counts": dict(zip(data.classes, data.counts.tolist()))}.items():
             print(f"{key:>16}: {value}")
@@ -181,12 +235,15 @@ def _datasets(args):
         return
     if args.collection == "keel":
         references = [f"keel:{name}" for name in datasets.keel.collection_names()]
+        base = None
     elif args.suite:
         from .suite import load_suite
-        references = load_suite(args.suite).datasets
+        suite = load_suite(args.suite)
+        references, base = suite.datasets, suite.folder
     else:
-        references = BUILT_IN_EXAMPLES
-    table = pd.DataFrame([{"reference": r, **datasets.load_dataset(r).meta()} for r in references])
+        references, base = BUILT_IN_EXAMPLES, None
+    with datasets.cache.no_downloads():
+        table = pd.DataFrame([{"reference": r, **datasets.load_dataset(r, base=base).meta()} for r in references])
     with pd.option_context("display.width", 220, "display.max_colwidth", 60, "display.max_rows", 500):
         print(table[LIST_COLUMNS].to_string(index=False))
     if any(r.startswith("sklearn:") for r in references):
@@ -212,7 +269,28 @@ def _check_openml():
     return 1 if problems else 0
 
 
-COMMANDS = {"run": _run, "report": _report, "rank": _rank, "list": _list, "datasets": _datasets}
+def _try(args):
+    from .tryout import parse_targets, try_dataset
+    sizes = None
+    if args.sizes:
+        sizes = [text.strip() if text.strip() == "all" else _whole(text, "--sizes") for text in args.sizes.split(",")]
+    result = try_dataset(args.dataset, suite_path=args.suite, board=args.board, top=args.top, combos=tuple(args.combos),
+                         targets=parse_targets(args.target), sizes=sizes, repeats=args.repeats, folds=args.folds,
+                         out=args.out, jobs=args.jobs, progress=not args.quiet, rope=args.rope, alpha=args.alpha,
+                         command=args.command_line)
+    print("\n".join(result.verdict))
+    print(f"\nleaderboard: {result.out}/leaderboard.md and {result.out}/index.html")
+
+
+def _whole(text, option):
+    from .errors import SuiteError
+    try:
+        return int(text)
+    except ValueError:
+        raise SuiteError(option, text, "give whole numbers or 'all', comma-separated") from None
+
+
+COMMANDS = {"run": _run, "report": _report, "rank": _rank, "compare": _compare, "list": _list, "datasets": _datasets, "try": _try}
 
 if __name__ == "__main__":
     sys.exit(main())

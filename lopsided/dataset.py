@@ -9,9 +9,8 @@ import numpy as np
 def duplicate_groups(X, y):
     """(group id per row, number of duplicate rows): identical rows (features and label, NaN equal
     to NaN) share one id, every other row has its own."""
-    rows = np.ascontiguousarray(np.c_[np.nan_to_num(X, nan=np.inf), y], dtype=np.float64)
-    _, first, inverse = np.unique(rows.view(np.dtype((np.void, rows.dtype.itemsize * rows.shape[1]))),
-                                  return_index=True, return_inverse=True)
+    rows = np.c_[np.nan_to_num(np.asarray(X, dtype=np.float64), nan=np.inf), y]
+    _, first, inverse = np.unique(rows, axis=0, return_index=True, return_inverse=True)
     return inverse.ravel(), len(y) - len(first)
 
 
@@ -30,7 +29,9 @@ class Dataset:
     """Features ``X`` (float, n x d), integer class codes ``y`` (0..k-1) and what they mean.
 
     ``groups`` holds donor / specimen / particle ids for grouped splitting;
-    ``axis`` the feature axis (wavenumbers in cm-1 for spectra).
+    ``axis`` the feature axis (wavenumbers in cm-1 for spectra). The arrays are read-only: one loaded
+    dataset is shared by every caller in a process, so nobody can change it for the next one (copy
+    before changing).
     """
 
     name: str
@@ -48,6 +49,17 @@ class Dataset:
             raise ValueError(f"{self.name}: X must be 2-D with one row per label")
         if self.groups is not None and len(self.groups) != len(self.y):
             raise ValueError(f"{self.name}: groups must have one entry per row")
+        for array in (self.X, self.y, self.groups, self.axis):
+            if isinstance(array, np.ndarray):
+                array.flags.writeable = False
+
+    def axis_summary(self):
+        """'4000-900 cm-1, 776 points, step 4' for spectra (an axis given), else ''."""
+        if self.axis is None or len(self.axis) < 2:
+            return ""
+        steps = np.abs(np.diff(np.asarray(self.axis, dtype=float)))
+        step = f"step {steps[0]:g}" if np.allclose(steps, steps[0]) else f"steps {steps.min():g}-{steps.max():g}"
+        return f"{self.axis[0]:g}-{self.axis[-1]:g} cm-1, {len(self.axis)} points, {step}"
 
     @property
     def counts(self):

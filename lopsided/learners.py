@@ -17,8 +17,9 @@ from sklearn.preprocessing import StandardScaler
 from sklearn.svm import SVC, LinearSVC
 from sklearn.tree import DecisionTreeClassifier
 
-from .errors import MethodError, unknown
-from .plugins import build, import_object
+from .errors import MethodError
+from .plugins import build
+from .registry import Registry
 
 
 class PLSDA(ClassifierMixin, BaseEstimator):
@@ -101,12 +102,9 @@ LEARNERS = {
 }
 
 
-def resolve(name):
-    if ":" in name:
-        return import_object(name)
-    if name in LEARNERS:
-        return LEARNERS[name][0]
-    raise MethodError(unknown("learner", name, LEARNERS))
+REGISTRY = Registry("learner", LEARNERS, "lopsided.learners")
+resolve = REGISTRY.resolve
+describe = REGISTRY.describe
 
 
 def make_learner(spec, random_state=None):
@@ -128,7 +126,3 @@ def weight_arguments(model, weights, title):
         raise MethodError(f"learner {title}: its fit() takes no sample weights, so class weights cannot apply")
     key = f"{model.steps[-1][0]}__sample_weight" if isinstance(model, Pipeline) else "sample_weight"
     return {key: weights}
-
-
-def describe():
-    return [(name, text) for name, (_, text) in LEARNERS.items()]

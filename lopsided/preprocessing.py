@@ -14,8 +14,9 @@ from sklearn.impute import SimpleImputer
 from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import FunctionTransformer, Normalizer, StandardScaler
 
-from .errors import MethodError, unknown
-from .plugins import accepted_params, build, import_object
+from .errors import MethodError
+from .plugins import accepted_params, build
+from .registry import Registry
 
 
 def standardize():
@@ -79,12 +80,9 @@ PREPROCESSORS = {
 }
 
 
-def resolve(name):
-    if ":" in name:
-        return import_object(name)
-    if name in PREPROCESSORS:
-        return PREPROCESSORS[name][0]
-    raise MethodError(unknown("preprocessing step", name, PREPROCESSORS))
+REGISTRY = Registry("preprocessing step", PREPROCESSORS, "lopsided.preprocessing")
+resolve = REGISTRY.resolve
+describe = REGISTRY.describe
 
 
 def make_preprocessing(specs, axis=None):
@@ -97,7 +95,3 @@ def make_preprocessing(specs, axis=None):
             params["axis"] = None if axis is None else np.asarray(axis, dtype=float)
         steps.append(build("preprocessing step", spec.title, factory, params))
     return make_pipeline(*steps) if steps else None
-
-
-def describe():
-    return [(name, text) for name, (_, text) in PREPROCESSORS.items()]

@@ -1,10 +1,11 @@
 """`lopsided rank`: statistics and a CD plot for a score table people bring themselves."""
 import json
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 
-from .analysis import compare
+from .analysis import Comparison, compare
 from .analysis.cdplot import draw
 from .analysis.words import caption, claims
 from .errors import DatasetError
@@ -46,8 +47,23 @@ def read_scores(path):
     return numeric
 
 
-def rank(matrix, **options):
-    """Notebook entry: a datasets x methods DataFrame -> Comparison (see lopsided.analysis.compare)."""
+def rank(matrix: pd.DataFrame, **options: Any) -> Comparison:
+    """Rank methods over datasets from your own score table (the notebook face of `lopsided rank`).
+
+    Parameters
+    ----------
+    matrix : pandas.DataFrame
+        Datasets as rows, methods as columns, one score per cell (NaN = missing).
+    **options
+        ``metric``, ``higher_is_better``, ``alpha``, ``control``, ``rope``, ``missing`` (see
+        `lopsided.analysis.compare`).
+
+    Returns
+    -------
+    Comparison
+        Average ranks, Friedman with the deciding p-value, Nemenyi, Holm-corrected Wilcoxon and Bayesian
+        signed-rank results; ``as_json()`` gives what stats.json holds.
+    """
     return compare(matrix, **options)
 
 

@@ -21,11 +21,15 @@ def parse_value(text):
     return text
 
 
-def split_query(text):
-    """'name?a=1&b=x' -> ('name', {'a': 1, 'b': 'x'}); repeated keys keep the last."""
+def split_query(text, typed=True):
+    """'name?a=1&b=x' -> ('name', {'a': 1, 'b': 'x'}); repeated keys keep the last.
+
+    ``typed=False`` keeps every value as the text written (dataset references: each adapter
+    declares its parameters' types, datasets/params.py).
+    """
     head, _, query = text.partition("?")
     pairs = parse_qsl(query, keep_blank_values=True, strict_parsing=False)
-    return head.strip(), {k: parse_value(v) for k, v in pairs}
+    return head.strip(), {k: parse_value(v) if typed else v for k, v in pairs}
 
 
 def format_params(params):
@@ -80,11 +84,11 @@ class Reference:
 
 
 def parse_reference(text):
-    """'file:data/x.csv?label=y' -> Reference('file', 'data/x.csv', {'label': 'y'}, '', text)."""
+    """'file:data/x.csv?label=y' -> Reference('file', 'data/x.csv', {'label': 'y'}, '', text); values stay text."""
     scheme, sep, rest = text.partition(":")
     if not sep:
         scheme, rest = "", text
     rest, _, fragment = rest.partition("#")
-    body, params = split_query(rest)
-    fragment, fragment_params = split_query(fragment)      # 'dir#name?x=1' reads like 'dir?x=1#name'
+    body, params = split_query(rest, typed=False)
+    fragment, fragment_params = split_query(fragment, typed=False)   # 'dir#name?x=1' reads like 'dir?x=1#name'
     return Reference(scheme.strip(), body, {**params, **fragment_params}, fragment, text.strip())

@@ -10,14 +10,14 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import learners, preprocessing, resamplers
-from .datasets import ADAPTERS
+from .datasets import DATASETS
 from .errors import LopsidedError, SuiteError, did_you_mean, unknown
 from .metrics import METRICS
 from .plugins import accepted_params
 from .specs import MethodSpec, parse_method, parse_reference
 
 TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
-            "preprocessing", "protocol", "store", "control"}
+            "preprocessing", "protocol", "store", "out", "control"}
 NO_CONTROL = "none"
 PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority"}
 RATIO_WORDS = ("natural", "balanced")
@@ -57,8 +57,22 @@ class Suite:
     preprocessing: tuple = ()
     description: str = ""
     source: str = "<suite>"
-    store: str | None = None
+    store: str | None = None     # as written; relative paths are taken from the suite file's folder
+    out: str | None = None
     control: str | None = ""     # Bonferroni-Dunn control: a resampler label; "" = the first; None = no test
+
+    @property
+    def folder(self) -> Path | None:
+        """The suite file's folder: relative paths in the suite are taken from here (None: no file)."""
+        path = Path(self.source)
+        return path.parent if path.suffix == ".toml" else None
+
+    def path(self, text: str | None) -> Path | None:
+        """A path written in the suite, resolved against the suite file's folder."""
+        if text is None:
+            return None
+        path = Path(text).expanduser()
+        return path if path.is_absolute() or self.folder is None else self.folder / path
 
     @property
     def control_label(self):
@@ -137,9 +151,10 @@ def suite_from_dict(raw, source="<suite>"):
             raise SuiteError(source, f"metrics[{i}]", unknown("metric", metric, METRICS))
     if not metrics:
         raise SuiteError(source, "metrics", "list at least one metric; the first is the headline")
-    store = raw.get("store")
-    if store is not None and not isinstance(store, str):
-        raise SuiteError(source, "store", f"{store!r} is not a file path")
+    store, out = raw.get("store"), raw.get("out")
+    for field, value in (("store", store), ("out", out)):
+        if value is not None and (not isinstance(value, str) or not value.strip()):
+            raise SuiteError(source, field, f"{value!r} is not a path")
     resampler_specs = _methods(raw.get("resamplers", ["none"]), source, "resamplers", resamplers.resolve)
     return Suite(
         name=name.strip(),
@@ -153,6 +168,7 @@ def suite_from_dict(raw, source="<suite>"):
         protocol=_protocol(raw.get("protocol", {}), source),
         source=source,
         store=store,
+        out=out,
         control=_control(raw.get("control", ""), resampler_specs, source),
     )
 
@@ -181,8 +197,8 @@ def _datasets(value, source):
         if not isinstance(text, str):
             raise SuiteError(source, f"datasets[{i}]", f"{text!r} is not a dataset reference string")
         scheme = parse_reference(text).scheme
-        if scheme not in ADAPTERS:
-            raise SuiteError(source, f"datasets[{i}]", unknown("dataset scheme", scheme, ADAPTERS))
+        if scheme not in DATASETS:
+            raise SuiteError(source, f"datasets[{i}]", unknown("dataset scheme", scheme, DATASETS.names()))
     if len(set(value)) != len(value):
         raise SuiteError(source, "datasets", "a dataset is listed twice")
     return tuple(value)
@@ -191,7 +207,7 @@ def _datasets(value, source):
 def _methods(value, source, field, resolve, allow_empty=False):
     if not isinstance(value, list) or (not value and not allow_empty):
         raise SuiteError(source, field, "give a list of names, import paths or {name, params, label} tables")
-    specs = []
+    specs: list[MethodSpec] = []
     for i, item in enumerate(value):
         where = f"{field}[{i}]"
         spec = _method(item, source, where)

@@ -1,17 +1,20 @@
 """Throw-away resamplers used by the tests (importable as plugins_for_tests:Name)."""
-import numpy as np
+import uuid
+from pathlib import Path
 
-SEEN = []
+import numpy as np
 
 
 class Recording:
-    """Passes data through and records the row ids (column 0) it was shown."""
+    """Passes data through and records the row ids (column 0) it was shown: one .npy file per call in
+    the folder ``record`` (files, not process memory, so it works on any backend)."""
 
-    def __init__(self, random_state=None):
+    def __init__(self, record, random_state=None):
+        self.record = record
         self.random_state = random_state
 
     def fit_resample(self, X, y):
-        SEEN.append(X[:, 0].astype(int).copy())
+        np.save(Path(self.record) / f"{uuid.uuid4().hex}.npy", X[:, 0].astype(int))
         return X, y
 
 

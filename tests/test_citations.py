@@ -10,8 +10,18 @@ import lopsided
 from lopsided import learners, resamplers
 from lopsided.datasets import ADAPTERS, bundled, measured
 from lopsided.datasets.cache import manifest
-from lopsided.report.citations import (ENTRIES, LEARNERS, LIBRARY, MEASURED_SETS, RESAMPLERS, SCHEMES,
-                                       SKLEARN_SETS, SOFTWARE_TITLE, STATISTICS, citation_block)
+from lopsided.report.citations import (
+    ENTRIES,
+    LEARNERS,
+    LIBRARY,
+    MEASURED_SETS,
+    RESAMPLERS,
+    SCHEMES,
+    SKLEARN_SETS,
+    SOFTWARE_TITLE,
+    STATISTICS,
+    citation_block,
+)
 from lopsided.suite import suite_from_dict
 
 CFF = Path(__file__).resolve().parents[1] / "CITATION.cff"

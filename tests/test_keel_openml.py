@@ -74,7 +74,7 @@ def test_checksum_mismatch_is_refused(tmp_path, monkeypatch):
     fake = tmp_path / "keel" / spec["file"]
     fake.parent.mkdir(parents=True)
     fake.write_bytes(b"not the wheel")
-    with pytest.raises(DatasetError, match="does not match datasets/keel.toml"):
+    with pytest.raises(DatasetError, match="does not match lopsided/datasets/manifests/keel.toml"):
         keel.wheel(fetch=False)
     assert not fake.exists() and fake.with_suffix(fake.suffix + ".rejected").exists()
 
@@ -111,6 +111,16 @@ def test_collection_loads_every_set_and_families_are_known():
         assert keel.family_of(name) in families, name
     car = load_dataset("keel:car-good")
     assert car.meta()["nominal"] == 6 and np.isfinite(car.X).all()
+    assert set(manifest("keel")["collection"]["origin"]) <= set(families)
+
+
+@have_wheel
+@pytest.mark.parametrize("name, origin", [("pima", "clinical"), ("wisconsin", "clinical"), ("haberman", "clinical"),
+                                          ("ecoli4", None), ("glass1", None)])
+def test_notes_mark_clinical_origin(name, origin):
+    """Data about patients says so in its note (UCI documentation of each set, from memory)."""
+    note = load_dataset(f"keel:{name}").provenance.note
+    assert (origin in note) if origin else ("clinical" not in note and "human" not in note)
 
 
 @have_wheel
@@ -142,8 +152,8 @@ def write_openml_cache(root, dataset_id):
 
 
 def test_openml_adapter_runs_offline_from_a_prefilled_cache(tmp_path, monkeypatch):
-    monkeypatch.setenv("OPENML_CACHE_DIR", str(tmp_path))
-    write_openml_cache(tmp_path, 990017)
+    monkeypatch.setenv("LOPSIDED_CACHE", str(tmp_path))
+    write_openml_cache(tmp_path / "openml", 990017)
     data = load_dataset("openml:990017")
     assert data.name == "particle-screen" and data.provenance.version == "2"
     assert data.counts.tolist() == [4, 16] and data.classes[data.minority] == "flag"
@@ -156,7 +166,7 @@ def test_openml_fails_fast_and_clearly_offline(tmp_path, monkeypatch):
     import time
 
     import openml
-    monkeypatch.setenv("OPENML_CACHE_DIR", str(tmp_path))
+    monkeypatch.setenv("LOPSIDED_CACHE", str(tmp_path))
     monkeypatch.setattr(openml.config, "server", "https://openml.invalid/api/v1/xml")   # offline even with a network
     started = time.perf_counter()
     with pytest.raises(DatasetError, match="openml:31: cannot get it from OpenML or the cache"):
@@ -171,6 +181,9 @@ def test_openml_manifest_lists_imbalanced_binary_sets():
     assert len(entries) >= 30 and len({e["id"] for e in entries}) == len(entries)
     for e in entries:
         assert 0 < e["minority_count"] / e["n_instances"] < 0.36, e["name"]
+    origin = {e["name"]: e.get("origin", "") for e in entries}
+    assert origin["diabetes"].startswith("clinical") and origin["ilpd"].startswith("clinical")   # patients
+    assert origin["adult"].startswith("human subjects") and origin["pc1"] == ""                 # people; software
 
 
 def test_parquet_and_arff_files(tmp_path):

@@ -8,11 +8,11 @@ from scipy.spatial.distance import cdist
 
 from lopsided.resamplers import BUILTIN, make_resampler, resolve
 from lopsided.resamplers.base import ResamplingError
-from lopsided.resamplers.cleaning import EditedNearestNeighbours, OneSidedSelection, TomekLinks, tomek_links
-from lopsided.resamplers.clusters import ClusterCentres
-from lopsided.resamplers.nearmiss import NearMiss
+from lopsided.resamplers.cleaning import NeighbourEditing, OneSidedSelection, TomekCleaning, tomek_links
+from lopsided.resamplers.clusters import KMeansCentres
+from lopsided.resamplers.nearmiss import NearMissUnder
 from lopsided.resamplers.neighbours import apportion
-from lopsided.resamplers.smote import ADASYN, SMOTE, SMOTENC, BorderlineSMOTE
+from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote, SmoteNominal
 from lopsided.specs import parse_method
 
 
@@ -45,7 +45,7 @@ def test_smote_points_lie_on_neighbour_segments_and_count_is_exact():
     """Chawla et al. (2002), section 4.2: x_new = x + u * (x_nn - x), u ~ U(0, 1), x_nn among the k
     nearest minority neighbours of x."""
     X, y = two_classes()
-    Xr, yr = SMOTE(neighbours=5, random_state=3).fit_resample(X, y)
+    Xr, yr = Smote(neighbours=5, random_state=3).fit_resample(X, y)
     assert np.bincount(yr).tolist() == [150, 150]
     np.testing.assert_array_equal(Xr[:180], X)
     minority = X[y == 1]
@@ -64,7 +64,7 @@ def danger_brute(X, y, m):
 def test_borderline_smote_seeds_only_from_the_danger_set(variant):
     """Han et al. (2005), section 3.1: danger = m/2 <= m' < m majority among the m nearest neighbours."""
     X, y = two_classes(shift=0.8, seed=2)
-    Xr, yr = BorderlineSMOTE(variant=variant, neighbours=5, danger_neighbours=10, random_state=1).fit_resample(X, y)
+    Xr, yr = BorderlineSmote(variant=variant, neighbours=5, danger_neighbours=10, random_state=1).fit_resample(X, y)
     assert np.bincount(yr).tolist() == [150, 150]
     minority = X[y == 1]
     danger = np.flatnonzero(danger_brute(X, y, 10))
@@ -83,7 +83,7 @@ def test_adasyn_counts_follow_the_normalised_majority_ratios():
     """He et al. (2008), steps (b)-(d): r_i = Delta_i / K, g_i = r_i / sum(r) * G."""
     X, y = two_classes(shift=1.0, seed=4)
     G = 150 - 30
-    Xr, yr = ADASYN(neighbours=5, random_state=2).fit_resample(X, y)
+    Xr, yr = Adasyn(neighbours=5, random_state=2).fit_resample(X, y)
     minority = X[y == 1]
     near = knn_brute(minority, X, 6)[:, 1:]
     ratio = (y[near] == 0).sum(axis=1) / 5
@@ -102,7 +102,7 @@ def test_smote_nc_distance_and_nominal_vote():
     rng = np.random.default_rng(7)
     X, y = two_classes(seed=7)
     X[:, 2] = rng.integers(0, 3, len(X))
-    Xr, yr = SMOTENC(nominal=[2], neighbours=4, random_state=5).fit_resample(X, y)
+    Xr, yr = SmoteNominal(nominal=[2], neighbours=4, random_state=5).fit_resample(X, y)
     minority = X[y == 1]
     med = np.median(minority[:, :2].std(axis=0))
     D = cdist(minority[:, :2], minority[:, :2], "sqeuclidean") + med ** 2 * (minority[:, 2][:, None] != minority[:, 2][None, :])
@@ -125,10 +125,10 @@ def test_tomek_links_are_exactly_the_mutual_nearest_opposite_pairs():
     nearest = knn_brute(X, X, 1, same=True)[:, 0]
     brute = {(i, j) for i, j in enumerate(nearest) if nearest[j] == i and y[i] != y[j] and i < j}
     assert brute and {tuple(p) for p in tomek_links(X, y)} == brute
-    Xr, yr = TomekLinks().fit_resample(X, y)
+    Xr, yr = TomekCleaning().fit_resample(X, y)
     removed = {i for i, j in brute for k in (i, j) if y[k] == 0 and k == (i if y[i] == 0 else j)}
     assert len(Xr) == len(X) - len(removed) and (yr == 1).sum() == 30
-    Xb, _ = TomekLinks(remove="both").fit_resample(X, y)
+    Xb, _ = TomekCleaning(remove="both").fit_resample(X, y)
     assert len(Xb) == len(X) - 2 * len(brute)
 
 
@@ -137,10 +137,10 @@ def test_enn_removes_exactly_the_majority_samples_its_neighbours_outvote():
     X, y = two_classes(shift=0.8, seed=6)
     near = knn_brute(X, X, 3, same=True)
     outvoted = ((y[near] != y[:, None]).sum(axis=1) > 1.5) & (y == 0)
-    Xr, _ = EditedNearestNeighbours(neighbours=3).fit_resample(X, y)
+    Xr, _ = NeighbourEditing(neighbours=3).fit_resample(X, y)
     np.testing.assert_array_equal(Xr, X[~outvoted])
     everyone = (y[near] != y[:, None]).sum(axis=1) > 1.5
-    Xa, _ = EditedNearestNeighbours(neighbours=3, classes="all").fit_resample(X, y)
+    Xa, _ = NeighbourEditing(neighbours=3, classes="all").fit_resample(X, y)
     np.testing.assert_array_equal(Xa, X[~everyone])
 
 
@@ -158,7 +158,7 @@ def test_nearmiss_picks_per_its_distance_rule(version):
         short = np.unique(np.argsort(D.T, axis=1, kind="stable")[:, :3])
         score = np.sort(D[short], axis=1)[:, :3].mean(axis=1)
         chosen = major[short[np.argsort(-score, kind="stable")[:30]]]
-    Xr, yr = NearMiss(version=version).fit_resample(X, y)
+    Xr, yr = NearMissUnder(rule=version).fit_resample(X, y)
     assert {tuple(r) for r in Xr[yr == 0]} == {tuple(r) for r in X[np.sort(chosen)]}
     assert (yr == 1).sum() == 30
 
@@ -182,7 +182,7 @@ def test_one_sided_selection_follows_kubat_and_matwin():
 
 def test_cluster_centres_replace_the_majority():
     X, y = two_classes(seed=10)
-    Xr, yr = ClusterCentres(random_state=0).fit_resample(X, y)
+    Xr, yr = KMeansCentres(random_state=0).fit_resample(X, y)
     assert np.bincount(yr).tolist() == [30, 30]
     np.testing.assert_array_equal(Xr[yr == 1], X[y == 1])
     centres = Xr[yr == 0]

@@ -5,7 +5,6 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import plugins_for_tests
 from lopsided.benchmark import run_suite
 from lopsided.cli import main
 from lopsided.datasets import load_dataset
@@ -83,10 +82,12 @@ def test_no_test_row_ever_reaches_the_resampler(tmp_path, write_suite):
                           "label": np.where(np.arange(n) % 6 == 0, "rare", "common")})
     csv = tmp_path / "ids.csv"
     table.to_csv(csv, index=False)
+    record = tmp_path / "seen"
+    record.mkdir()
     text = f"""
     name = "leak"
     datasets = ["file:{csv}?label=label"]
-    resamplers = ["plugins_for_tests:Recording"]
+    resamplers = [{{ name = "plugins_for_tests:Recording", params = {{ record = "{record}" }} }}]
     learners = ["logistic-regression"]
     [protocol]
     repeats = 2
@@ -96,14 +97,14 @@ def test_no_test_row_ever_reaches_the_resampler(tmp_path, write_suite):
     min_minority = 3
     """
     path = write_suite(text=text, name="leak.toml")
-    plugins_for_tests.SEEN.clear()
-    run_suite(path, out=tmp_path / "o", progress=False)
+    run_suite(path, out=tmp_path / "o", progress=False, jobs=2)          # two worker processes
     suite = load_suite(path)
     units = plan(suite, {r: load_dataset(r) for r in suite.datasets}).units
-    assert len(plugins_for_tests.SEEN) == len(units) == 2 * 3 * 4
-    for seen, unit in zip(plugins_for_tests.SEEN, units):
-        assert not set(seen) & set(unit.test)
-        assert set(seen) == set(unit.train)
+    seen = sorted(tuple(sorted(np.load(f))) for f in record.glob("*.npy"))
+    assert len(seen) == len(units) == 2 * 3 * 4                           # each training set resampled once
+    assert seen == sorted(tuple(sorted(u.train)) for u in units)           # exactly the training rows ...
+    test_of = {tuple(sorted(u.train)): set(u.test) for u in units}
+    assert all(not set(rows) & test_of[rows] for rows in seen)             # ... and never a test row
 
 
 def test_a_failing_resampler_fails_only_its_cells(write_suite, tmp_path):

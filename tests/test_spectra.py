@@ -4,8 +4,15 @@ import pytest
 from scipy.signal import find_peaks, savgol_filter
 
 from lopsided.datasets import load_dataset
-from lopsided.datasets.spectra import (BIOFILM_BANDS, POLYMER_ABUNDANCE_ORDER, POLYMER_BANDS, SERUM_BANDS,
-                                       SERUM_DONOR_SD, SERUM_EFFECT, serum_amplitudes)
+from lopsided.datasets.spectra import (
+    BIOFILM_BANDS,
+    POLYMER_ABUNDANCE_ORDER,
+    POLYMER_BANDS,
+    SERUM_BANDS,
+    SERUM_DONOR_SD,
+    SERUM_EFFECT,
+    serum_amplitudes,
+)
 from lopsided.preprocessing import make_preprocessing
 from lopsided.specs import parse_method
 
@@ -76,7 +83,8 @@ def test_water_lines_are_sharp_and_optional():
     dry = load_dataset("spectra:serum?donors=6&step=1&seed=4&snr=3000")
     wet = load_dataset("spectra:serum?donors=6&step=1&seed=4&snr=3000&water=1")
     window = (dry.axis > 1700) & (dry.axis < 1900)
-    roughness = lambda X: np.percentile(np.abs(np.diff(X[:, window], 2, axis=1)), 99.5)
+    def roughness(X):
+        return np.percentile(np.abs(np.diff(X[:, window], 2, axis=1)), 99.5)
     assert roughness(wet.X) > 5 * roughness(dry.X)
 
 

@@ -1,5 +1,5 @@
 """Time of a full comparison of 60 methods over 100 datasets: ranks, Friedman, Iman-Davenport, Nemenyi,
-all 1,770 pairwise Wilcoxon-Holm and Bayesian signed-rank tests, bootstrap rank intervals, and the CD plot
+all 1,770 pairwise Holm-corrected Wilcoxon and Bayesian signed-rank tests, bootstrap rank intervals, and the CD plot
 (SVG + PNG). One core. Target: under 5 s. Also prints scipy's own per-pair Wilcoxon time for the same pairs
 (side by side), which lopsided's implementation replaces.
 

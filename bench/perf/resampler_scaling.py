@@ -16,15 +16,15 @@ import tracemalloc
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from lopsided.resamplers.cleaning import EditedNearestNeighbours, TomekLinks
-from lopsided.resamplers.smote import ADASYN, SMOTE, BorderlineSMOTE
+from lopsided.resamplers.cleaning import NeighbourEditing, TomekCleaning
+from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote
 
 METHODS = {
-    "smote": lambda: SMOTE(random_state=0),
-    "borderline-smote-1": lambda: BorderlineSMOTE(variant=1, random_state=0),
-    "adasyn": lambda: ADASYN(random_state=0),
-    "enn": lambda: EditedNearestNeighbours(),
-    "tomek-links": lambda: TomekLinks(),
+    "smote": lambda: Smote(random_state=0),
+    "borderline-smote-1": lambda: BorderlineSmote(variant=1, random_state=0),
+    "adasyn": lambda: Adasyn(random_state=0),
+    "enn": lambda: NeighbourEditing(),
+    "tomek-links": lambda: TomekCleaning(),
 }
 BRUTE_LIMIT = 5000
 

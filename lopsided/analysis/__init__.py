@@ -1,5 +1,5 @@
 """Aggregation and statistics: ranks, Friedman / Iman-Davenport, Nemenyi, Bonferroni-Dunn,
-Wilcoxon-Holm, Bayesian signed-rank, bootstrap rank intervals."""
+Holm-corrected Wilcoxon, Bayesian signed-rank, bootstrap rank intervals."""
 from .compare import AnalysisError, Comparison, compare
 
 __all__ = ["AnalysisError", "Comparison", "compare"]

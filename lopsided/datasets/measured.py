@@ -10,31 +10,33 @@ import numpy as np
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
 from .labels import encode
-from .params import refuse_unknown
+from .params import Param, read_params
 
 SETS = {"coffee": "60 ATR-FTIR spectra of coffee, 3 origins (chemotools)"}
-ALLOWED = {"positive", "keep", "seed"}
+PARAMS = {"positive": Param(str, None, "the class to set against the rest"),
+          "keep": Param(int, None, "keep only this many spectra of the positive class (an induced imbalance)"),
+          "seed": Param(int, 0, "which spectra keep= keeps")}
 
 
 def load(ref):
     if ref.body not in SETS:
         raise DatasetError(f"{ref.text}: {unknown('measured set', ref.body, SETS)}")
-    refuse_unknown(ref, ALLOWED)
+    values = read_params(ref, PARAMS)
     from chemotools.datasets import load_coffee
     spectra, labels = load_coffee()
     X = spectra.to_numpy(dtype=np.float64)
     raw = labels.iloc[:, 0].astype(str).to_numpy()
-    positive = ref.params.get("positive")
+    positive = values["positive"]
     y, classes = encode(raw, positive, where=ref.text)
     note = "measured spectra"
-    if "keep" in ref.params:
+    if values["keep"] is not None:
         if positive is None:
             raise DatasetError(f"{ref.text}: keep= needs positive= (which class to thin out)")
-        keep = int(ref.params["keep"])
+        keep = values["keep"]
         members = np.flatnonzero(y == 1)
         if not 1 <= keep <= len(members):
             raise DatasetError(f"{ref.text}: keep={keep} must be between 1 and {len(members)}")
-        rng = np.random.default_rng(int(ref.params.get("seed", 0)))
+        rng = np.random.default_rng(values["seed"])
         dropped = rng.choice(members, len(members) - keep, replace=False)
         rows = np.setdiff1d(np.arange(len(y)), dropped)
         X, y = X[rows], y[rows]

@@ -23,7 +23,7 @@ import numpy as np
 
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
-from .params import refuse_unknown
+from .params import Param, read_params
 
 
 @dataclass(frozen=True)
@@ -75,7 +75,12 @@ CARBONYL_WEATHERING = Band(1715, 30, 1.0, 0.5, "C=O of oxidation products (weath
 BIOFILM_BANDS = (Band(1650, 34, 1.0, 0.5, "amide I (biofilm)"), Band(1545, 34, 0.6, 0.5, "amide II (biofilm)"))
 
 REGIONS = {"full": (4000.0, 900.0), "fingerprint": (1800.0, 900.0)}
-COMMON = {"seed", "snr", "region", "step", "water"}
+COMMON = {
+    "seed": Param(int, 0, "random seed of the generator"),
+    "region": Param(str, "full", "full (4000-900 cm-1) or fingerprint (1800-900 cm-1)"),
+    "step": Param(float, 4.0, "axis step, cm-1"),
+    "water": Param(float, 0.0, "strength of water-vapour-like lines, 0 = none"),
+}
 # Water-vapour-like interference: narrow lines across the H-O-H bending (about 1400-1900 cm-1) and
 # O-H stretching (about 3500-3950 cm-1) regions, as uncompensated atmospheric water leaves them in
 # open-beam FTIR spectra (positions drawn by our generator, not taken from a line list).
@@ -147,9 +152,7 @@ def serum_amplitudes(params, rng):
     The positive class shifts the log intensity of the SERUM_EFFECT bands by ``effect`` donor
     standard deviations (a Cohen's d of ``effect`` at donor level), times each band's direction.
     """
-    ratio = float(params.get("ratio", 10))
-    donors, replicates = int(params.get("donors", 60)), int(params.get("replicates", 3))
-    effect = float(params.get("effect", 1.0))
+    ratio, donors, replicates, effect = params["ratio"], params["donors"], params["replicates"], params["effect"]
     if ratio < 1:
         raise DatasetError(f"spectra:serum: ratio={ratio} must be at least 1 (majority over minority)")
     if donors < 2 or replicates < 1:
@@ -168,35 +171,36 @@ def serum_amplitudes(params, rng):
 
 def serum(params):
     """Binary serum-film screening set; see the module docstring."""
-    rng = np.random.default_rng(int(params.get("seed", 0)))
-    axis = wavenumbers(params.get("region", "full"), params.get("step", 4))
+    rng = np.random.default_rng(params["seed"])
+    axis = wavenumbers(params["region"], params["step"])
     log_amp, labels, group_of = serum_amplitudes(params, rng)
     pure = np.exp(log_amp) @ _shapes(axis, SERUM_BANDS)
-    X = _finish(pure, axis, group_of, params, rng, snr=300, scatter=0.05, baseline=0.03)
+    X = _finish(pure, axis, group_of, params, rng, scatter=0.05, baseline=0.03)
     return X, labels, ("negative", "positive"), group_of, "donor"
 
 
-def _finish(pure, axis, group_of, params, rng, snr, scatter, baseline):
+def _finish(pure, axis, group_of, params, rng, scatter, baseline):
     """Distortions, optional water-vapour lines, then noise at the asked signal-to-noise ratio."""
     spectra = _distort(pure, axis, group_of, rng, scatter=scatter, baseline=baseline)
-    water = float(params.get("water", 0))
-    if water > 0:
-        spectra = spectra + _water_lines(axis, len(spectra), 0.05 * water, rng)
-    return _noise(spectra, params.get("snr", snr), rng)
+    if params["water"] > 0:
+        spectra = spectra + _water_lines(axis, len(spectra), 0.05 * params["water"], rng)
+    return _noise(spectra, params["snr"], rng)
 
 
 def polymers(params):
     """Six-polymer micro-particle set with long-tailed abundance; see the module docstring."""
-    ratio = float(params.get("ratio", 20))
-    particles, per_particle = int(params.get("particles", 200)), int(params.get("spectra", 2))
-    weathering, rng = float(params.get("weathering", 1.0)), np.random.default_rng(int(params.get("seed", 0)))
+    ratio, particles, per_particle = params["ratio"], params["particles"], params["spectra"]
+    weathering, rng = params["weathering"], np.random.default_rng(params["seed"])
     if ratio < 1:
         raise DatasetError(f"spectra:polymers: ratio={ratio} must be at least 1 (most over least abundant)")
-    axis = wavenumbers(params.get("region", "full"), params.get("step", 4))
+    axis = wavenumbers(params["region"], params["step"])
     k = len(POLYMER_ABUNDANCE_ORDER)
     shares = ratio ** (-np.arange(k) / (k - 1))          # geometric long tail: most / least abundant = ratio
-    if "shares" in params:
-        shares = np.array([float(v) for v in str(params["shares"]).split(",")])
+    if params["shares"] is not None:
+        try:
+            shares = np.array([float(v) for v in params["shares"].split(",")])
+        except ValueError:
+            shares = np.array([])
         if len(shares) != k or (shares <= 0).any():
             raise DatasetError(f"spectra:polymers: shares needs {k} positive numbers, one per polymer in the order "
                                f"{', '.join(POLYMER_ABUNDANCE_ORDER)}")
@@ -210,12 +214,12 @@ def polymers(params):
         amps = np.array([b.height for b in bands]) * particle_amp[group_of[rows], : len(bands)]
         amps *= np.exp(rng.normal(0, 0.05, amps.shape))
         pure[rows] = amps @ _shapes(axis, bands)
-    pure = _admix(pure, particle_class, group_of, float(params.get("purity", 0.7)), rng)
+    pure = _admix(pure, particle_class, group_of, params["purity"], rng)
     oxidation = rng.exponential(0.15 * weathering, particles)[group_of]
     biofilm = rng.exponential(0.1 * weathering, particles)[group_of]
     pure += oxidation[:, None] * _shapes(axis, [CARBONYL_WEATHERING])[0]
     pure += biofilm[:, None] * (np.array([b.height for b in BIOFILM_BANDS]) @ _shapes(axis, BIOFILM_BANDS))
-    X = _finish(pure, axis, group_of, params, rng, snr=80, scatter=0.15, baseline=0.06)
+    X = _finish(pure, axis, group_of, params, rng, scatter=0.15, baseline=0.06)
     return X, particle_class[group_of], POLYMER_ABUNDANCE_ORDER, group_of, "particle"
 
 
@@ -233,21 +237,34 @@ def _admix(pure, particle_class, group_of, purity, rng):
 
 
 PRESETS = {
-    "serum": (serum, {"ratio", "donors", "replicates", "effect"},
-              "dried serum films, binary screening, rare positive donors (3 replicates each)"),
-    "polymers": (polymers, {"ratio", "shares", "particles", "spectra", "weathering", "purity", "positive"},
-                 "micro-plastic particles, 6 polymers, long-tailed abundance"),
+    "serum": (serum, {
+        "ratio": Param(float, 10.0, "negative : positive donors"),
+        "donors": Param(int, 60, "number of donors"),
+        "replicates": Param(int, 3, "spectra per donor"),
+        "effect": Param(float, 1.0, "Cohen's d of the shifted band intensities between donors"),
+        "snr": Param(float, 300.0, "peak signal over noise sd"),
+    }, "dried serum films, binary screening, rare positive donors (3 replicates each)"),
+    "polymers": (polymers, {
+        "ratio": Param(float, 20.0, "most : least abundant polymer"),
+        "shares": Param(str, None, "six comma-separated class shares instead of ratio"),
+        "particles": Param(int, 200, "number of particles"),
+        "spectra": Param(int, 2, "spectra per particle"),
+        "weathering": Param(float, 1.0, "strength of oxidation and biofilm bands"),
+        "purity": Param(float, 0.7, "least share of a particle's own polymer"),
+        "positive": Param(str, None, "one polymer against the rest"),
+        "snr": Param(float, 80.0, "peak signal over noise sd"),
+    }, "micro-plastic particles, 6 polymers, long-tailed abundance"),
 }
 
 
 def load(ref):
     if ref.body not in PRESETS:
         raise DatasetError(f"{ref.text}: {unknown('spectra preset', ref.body, PRESETS)}")
-    make, allowed, summary = PRESETS[ref.body]
-    refuse_unknown(ref, allowed | COMMON)
-    X, y, classes, groups, group_word = make(ref.params)
-    axis = wavenumbers(ref.params.get("region", "full"), ref.params.get("step", 4))
-    positive = ref.params.get("positive")
+    make, declared, summary = PRESETS[ref.body]
+    params = read_params(ref, {**COMMON, **declared})
+    X, y, classes, groups, group_word = make(params)
+    axis = wavenumbers(params["region"], params["step"])
+    positive = params.get("positive")
     if positive is not None:
         if positive not in classes:
             raise DatasetError(f"{ref.text}: {unknown('class', positive, classes)}")

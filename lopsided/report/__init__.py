@@ -1,5 +1,6 @@
-"""The leaderboard folder: leaderboard.md, index.html, scores.csv, cells.csv, stats.json,
-manifest.json and figures/, rebuilt from stored cells alone (no refitting).
+"""The leaderboard folder: leaderboard.md, the static site (index.html and the pages of ``site.PAGES``,
+static/), scores.csv, cells.csv, stats.json, manifest.json, citation.bib and figures/, rebuilt from stored
+cells alone (no refitting).
 
 Files are written into a temporary folder beside the target and moved into place one by
 one, so a failure never leaves a half-written file behind.
@@ -23,6 +24,8 @@ from ..protocol import point_label
 from ..specs import MethodSpec
 from .citations import citation_block
 from .figures import SPREAD, sweep
+from .heatmap import draw_rank_map, ranks_by_dataset
+from .site import group_letters, top_group, write_site
 from .tables import COMBINED, method_matrix, per_dataset_rows, points_of, scores_table, with_titles
 from .winners import BANDS, winner_rows
 
@@ -122,13 +125,39 @@ def _leaderboard_rows(result, scores, ratio, size, learner, metrics):
     key = rows["resampler"] if learner is not None else rows["resampler"] + COMBINED + rows["learner"]
     rows = rows[key.isin(result.methods) & rows["dataset"].isin(result.datasets)]
     key = key.loc[rows.index]
-    means = rows.groupby(key)[[f"{m}_mean" for m in metrics]].mean()
+    per_dataset = rows.groupby(key)[[f"{m}_mean" for m in metrics]]
+    means, spreads = per_dataset.mean(), per_dataset.std()
+    letters, top = group_letters(result), set(top_group(result))
     out = []
     for place, (method, rank) in enumerate(result.average_ranks.items(), start=1):
         low, high = result.rank_intervals.loc[method]
+        resampler, _, combined_learner = method.partition(COMBINED)
         out.append({"place": place, "method": method, "rank": rank, "low": low, "high": high,
-                    "means": [means.loc[method, f"{m}_mean"] for m in metrics]})
+                    "resampler": resampler, "learner": learner or combined_learner,
+                    "means": [means.loc[method, f"{m}_mean"] for m in metrics],
+                    "spreads": [spreads.loc[method, f"{m}_mean"] for m in metrics],
+                    "group": letters.get(method, ""), "top": method in top})
     return out
+
+
+def _rank_map(suite, scores, imbalance, figures_dir):
+    """The rank map of the headline metric over all combinations at the first protocol point, or None.
+
+    Rows: datasets by natural imbalance ratio; columns: combinations by mean rank over the datasets.
+    """
+    points = points_of(scores, suite["protocol"])
+    if not points:
+        return None
+    (ratio, size), metric = points[0], suite["metrics"][0]
+    ranks = ranks_by_dataset(method_matrix(scores, metric, ratio, size))
+    ranks = ranks.loc[sorted(ranks.index, key=lambda d: (imbalance.get(d, float("inf")), d)),
+                      ranks.mean(axis=0).sort_values(kind="mergesort").index]
+    labels = [f"{d}  (IR {imbalance[d]:g})" if d in imbalance else d for d in ranks.index]
+    point = f"ratio={ratio}, size={size}"
+    stem = figures_dir / _slug("ranks", metric, ratio, size)
+    draw_rank_map(ranks, labels, str(stem), f"Rank of {metric} on each dataset at {point} (1 = best)")
+    return {"figure": f"figures/{stem.name}.svg", "metric": metric, "point": point,
+            "missing": int(ranks.isna().to_numpy().sum()), "shape": ranks.shape}
 
 
 SWEEP_METRICS = ("sensitivity", "specificity")   # recall of the minority class and of the rest
@@ -208,11 +237,12 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
             "methods": summary.get("methods", []), "citation": citation_block(suite, summary).text(),
             "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
             "failures": _notes(titled, "error"), "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
-            "leakage": summary.get("split_leakage", []),
-            "svg": lambda rel: (staging / rel).read_text(encoding="utf-8"),
+            "leakage": summary.get("split_leakage", []), "scores": scores, "imbalance": imbalance,
+            "rank_map": _rank_map(suite, scores, imbalance, staging / "figures"),
+            "svg": lambda rel: _inline_svg(staging / rel),
         }
         (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context), encoding="utf-8")
-        (staging / "index.html").write_text(ENV.get_template("index.html.j2").render(**context), encoding="utf-8")
+        write_site(ENV, staging, context)
         # 8 significant digits in the CSV files (the store keeps full precision)
         scores.to_csv(staging / "scores.csv", index=False, float_format="%.8g")
         titled.sort_values(["dataset", "ratio", "size", "repeat", "fold", "resampler", "learner"]).to_csv(
@@ -234,12 +264,18 @@ def _notes(cells, column):
         return []
     noted = cells[cells[column].notna()]
     grouped = noted.groupby(["resampler", "learner"], sort=True)
-    return [{"resampler": r, "learner": l, "cells": len(g), "text": g[column].iloc[0]} for (r, l), g in grouped]
+    return [{"resampler": r, "learner": learner, "cells": len(g), "text": g[column].iloc[0]}
+            for (r, learner), g in grouped]
+
+
+def _inline_svg(path):
+    """One of our own SVG figures as an HTML element: the XML prolog and doctype dropped."""
+    text = path.read_text(encoding="utf-8")
+    return text[text.index("<svg"):]
 
 
 def _move_into_place(staging, out):
-    figures = out / "figures"
-    if figures.exists():
-        shutil.rmtree(figures)
     for item in staging.iterdir():
+        if item.is_dir() and (out / item.name).exists():
+            shutil.rmtree(out / item.name)
         os.replace(item, out / item.name)

@@ -328,7 +328,7 @@ SCHEMES = {"keel": _keel, "openml": _openml, "sklearn": _sklearn, "measured": _m
 
 def _dataset_items(row):
     ref = parse_reference(row["reference"])
-    return SCHEMES[ref.scheme](ref, row)
+    return SCHEMES.get(ref.scheme, _own_data)(ref, row)     # a plugin's scheme: its users cite its source
 
 
 def _method_items(spec, table):

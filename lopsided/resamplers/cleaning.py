@@ -22,7 +22,7 @@ def _larger_class_member(pairs, y):
     return np.where(counts[y[a]] > counts[y[b]], a, b)
 
 
-class TomekLinks:
+class TomekCleaning:
     """Removes Tomek links (Tomek 1976): by default only the member from the larger class, with
     ``remove="both"`` both members (as in Batista, Prati & Monard 2004).
 
@@ -54,7 +54,7 @@ def enn_removals(X, y, k, candidates):
     return candidates & (other > near.shape[1] / 2)
 
 
-class EditedNearestNeighbours:
+class NeighbourEditing:
     """Edited nearest neighbours (Wilson 1972): removes a sample when most of its ``neighbours``
     nearest neighbours belong to other classes. ``classes="majority"`` edits only the largest
     class (the usual under-sampling use); ``"all"`` edits every class (as in Batista et al. 2004).

@@ -7,7 +7,7 @@ from sklearn.cluster import KMeans
 from .base import check_xy, under_targets
 
 
-class ClusterCentres:
+class KMeansCentres:
     def __init__(self, balance=1.0, random_state=None):
         self.balance = balance
         self.random_state = random_state

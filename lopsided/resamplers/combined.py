@@ -1,22 +1,22 @@
 """Over-sampling followed by cleaning (Batista, Prati & Monard 2004, SIGKDD Explorations 6:20):
 SMOTE then removal of both members of every Tomek link; SMOTE then ENN over all classes."""
 from .base import as_rng
-from .cleaning import EditedNearestNeighbours, TomekLinks
-from .smote import SMOTE
+from .cleaning import NeighbourEditing, TomekCleaning
+from .smote import Smote
 
 
-class SMOTETomek:
+class SmoteThenTomek:
     def __init__(self, balance=1.0, neighbours=5, random_state=None):
         self.balance = balance
         self.neighbours = neighbours
         self.random_state = random_state
 
     def fit_resample(self, X, y):
-        X, y = SMOTE(self.balance, self.neighbours, as_rng(self.random_state)).fit_resample(X, y)
-        return TomekLinks(remove="both").fit_resample(X, y)
+        X, y = Smote(self.balance, self.neighbours, as_rng(self.random_state)).fit_resample(X, y)
+        return TomekCleaning(remove="both").fit_resample(X, y)
 
 
-class SMOTEENN:
+class SmoteThenEditing:
     def __init__(self, balance=1.0, neighbours=5, edit_neighbours=3, random_state=None):
         self.balance = balance
         self.neighbours = neighbours
@@ -24,5 +24,5 @@ class SMOTEENN:
         self.random_state = random_state
 
     def fit_resample(self, X, y):
-        X, y = SMOTE(self.balance, self.neighbours, as_rng(self.random_state)).fit_resample(X, y)
-        return EditedNearestNeighbours(self.edit_neighbours, classes="all").fit_resample(X, y)
+        X, y = Smote(self.balance, self.neighbours, as_rng(self.random_state)).fit_resample(X, y)
+        return NeighbourEditing(self.edit_neighbours, classes="all").fit_resample(X, y)

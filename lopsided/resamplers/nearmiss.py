@@ -2,12 +2,12 @@
 
 Each class larger than the target keeps round(smallest count / balance) samples, chosen by
 distance to the smallest class (the minority):
-- version 1: the smallest mean distance to their ``neighbours`` nearest minority samples;
-- version 2: the smallest mean distance to their ``neighbours`` farthest minority samples;
-- version 3: first keep, for every minority sample, its ``keep_neighbours`` nearest samples of
+- rule 1: the smallest mean distance to their ``neighbours`` nearest minority samples;
+- rule 2: the smallest mean distance to their ``neighbours`` farthest minority samples;
+- rule 3: first keep, for every minority sample, its ``keep_neighbours`` nearest samples of
   the class; among those, the largest mean distance to their ``neighbours`` nearest minority samples
   (when that short list is smaller than the target, all of it is kept: fewer samples than asked).
-Distances to all minority samples (version 2) are computed in blocks, never as one matrix.
+Distances to all minority samples (rule 2) are computed in blocks, never as one matrix.
 Equal scores keep the earlier row (stable sort). With fewer minority samples than ``neighbours`` the
 mean runs over all of them, where a common reference implementation stops with an error; the target
 count is rounded to the nearest whole number (see ``base.under_targets``).
@@ -32,9 +32,9 @@ def mean_farthest(X_from, X_to, k):
     return np.concatenate(out)
 
 
-class NearMiss:
-    def __init__(self, version=1, balance=1.0, neighbours=3, keep_neighbours=3, random_state=None):
-        self.version = version
+class NearMissUnder:
+    def __init__(self, rule=1, balance=1.0, neighbours=3, keep_neighbours=3, random_state=None):
+        self.rule = rule
         self.balance = balance
         self.neighbours = neighbours
         self.keep_neighbours = keep_neighbours
@@ -42,8 +42,8 @@ class NearMiss:
 
     def fit_resample(self, X, y):
         X, y = check_xy(X, y)
-        if self.version not in (1, 2, 3):
-            raise ResamplingError(f"version={self.version!r} must be 1, 2 or 3")
+        if self.rule not in (1, 2, 3):
+            raise ResamplingError(f"rule={self.rule!r} must be 1, 2 or 3")
         labels, counts = np.unique(y, return_counts=True)
         minority = np.flatnonzero(y == labels[counts.argmin()])
         keep = [np.flatnonzero(~np.isin(y, list(under_targets(y, self.balance))))]
@@ -54,10 +54,10 @@ class NearMiss:
 
     def _select(self, X, members, minority, cap):
         k = self.neighbours
-        if self.version == 1:
+        if self.rule == 1:
             score = mean_nearest(X[members], X[minority], k)
             return members[np.argsort(score, kind="mergesort")[:cap]]
-        if self.version == 2:
+        if self.rule == 2:
             score = mean_farthest(X[members], X[minority], k)
             return members[np.argsort(score, kind="mergesort")[:cap]]
         m = min(self.keep_neighbours, len(members))

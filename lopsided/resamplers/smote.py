@@ -39,7 +39,7 @@ class _Synthetic:
         return interpolate(X_class[base], X_class[towards], rng.random(len(base)))
 
 
-class SMOTE(_Synthetic):
+class Smote(_Synthetic):
     """Synthetic Minority Over-sampling TEchnique (Chawla, Bowyer, Hall & Kegelmeyer 2002, JAIR 16:321).
 
     Each new point lies on the segment between a minority sample and one of its ``neighbours``
@@ -62,7 +62,7 @@ def danger_set(X, y, members, m):
     return (others >= near.shape[1] / 2) & (others < near.shape[1])
 
 
-class BorderlineSMOTE(_Synthetic):
+class BorderlineSmote(_Synthetic):
     """Borderline-SMOTE (Han, Wang & Mao 2005, ICIC, LNCS 3644:878).
 
     Only minority samples in the danger set seed new points. Variant 1 interpolates towards the
@@ -100,7 +100,7 @@ class BorderlineSMOTE(_Synthetic):
         return interpolate(X[seeds[base]], X[towards], gaps)
 
 
-class ADASYN(_Synthetic):
+class Adasyn(_Synthetic):
     """ADAptive SYNthetic sampling (He, Bai, Garcia & Li 2008, IJCNN, 1322).
 
     Minority sample i gets g_i = G * r_i / sum(r) new points (largest-remainder rounding, so the
@@ -118,7 +118,7 @@ class ADASYN(_Synthetic):
         return self._from_seeds(X[members], counts, rng)
 
 
-class SMOTENC(_Synthetic):
+class SmoteNominal(_Synthetic):
     """SMOTE for mixed nominal and continuous features (Chawla et al. 2002, JAIR 16:321, section 6.1).
 
     ``nominal``: indices of the nominal columns (integer codes). Distance: Euclidean over the
