@@ -16,7 +16,7 @@ from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import MethodSpec, parse_method
 from .store import Store, now
-from .suite import load_suite, spec_dict, suite_from_dict
+from .suite import added_resampler, check_writable, load_suite, spec_dict, suite_from_dict
 
 PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2", "chemotools", "openml",
             "threadpoolctl", "tqdm", "pyarrow", "jcamp")
@@ -93,7 +93,12 @@ def load_all(suite):
     """Every dataset of the suite; twin sets (the same samples and labels under two names, such as
     KEEL's new_thyroid1 and new_thyroid2) are refused, since rank-based tests would count one task twice.
     Different tasks cut from the same samples (glass1, glass6) are allowed: curated suites limit them per family."""
-    datasets = {reference: load_dataset(reference, base=suite.folder) for reference in suite.datasets}
+    datasets = {}
+    for i, reference in enumerate(suite.datasets):
+        try:
+            datasets[reference] = load_dataset(reference, base=suite.folder)
+        except LopsidedError as exc:
+            raise SuiteError(suite.source, f"datasets[{i}]", str(exc)) from None
     seen: dict[str, str] = {}
     for reference, data in datasets.items():
         if data.checksum in seen:
@@ -103,8 +108,20 @@ def load_all(suite):
     return datasets
 
 
+def refuse_unreachable(suite, full):
+    """One clear error when no protocol point can be cut from any dataset: there would be nothing to rank.
+    (A dataset without a feasible point among others that have some is listed under skipped points.)"""
+    if full.units or not full.skipped:
+        return
+    first = full.skipped[0]
+    raise SuiteError(suite.source, "protocol", f"no protocol point can be cut from any dataset, e.g. "
+                     f"{first['dataset']} at ratio {first['ratio']}, size {first['size']}: {first['reason']}; "
+                     "lower protocol.ratios, protocol.sizes or protocol.min_minority")
+
+
 def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamplers=(), retry_failed=False,
-              progress=True, alpha=0.05, rope=0.01, compare_split_leakage=False, command=None):
+              progress=True, alpha=0.05, rope=0.01, compare_split_leakage=False, command=None, backend="auto",
+              scheduler=None):
     """Run a suite file (or Suite) and write its leaderboard; stored cells are reused.
 
     Resamplers added with ``add_resamplers`` are recorded in the store and stay in every later run
@@ -116,20 +133,27 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
     if not isinstance(jobs, int) or jobs < 1:
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
     command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
+    where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
+    check_writable(out, *where)
+    for text in add_resamplers:          # refused before the store opens: a plugin that is no resampler
+        added_resampler(text)
     store_path = Path(store or base.path(base.store) or out / "store.sqlite")
     started, clock = now(), time.perf_counter()
+    datasets = load_all(base)                 # bad data fails here, before the store exists or changes
+    refuse_unreachable(base, plan(base, datasets))
     db = Store(store_path)
     try:
         suite, origins = with_added_methods(base, db, add_resamplers, drop_resamplers, command)
-        datasets = load_all(suite)
         full = plan(suite, datasets)
         leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
         run_id = db.begin_run(suite, full.keys)
-        counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
+        counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
+                          backend=backend, scheduler=scheduler)
         cells = db.cells(full.keys)
         if leaky is not None:
-            extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress)
+            extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
+                             backend=backend, scheduler=scheduler)
             for key in ("reused", "computed", "failed"):     # the leakage run counts as work done, not planned
                 counts[key] += extra[key]
         summary = _summary(suite, datasets, full, cells, counts, origins)
@@ -200,9 +224,13 @@ def rebuild_report(target, out=None, alpha=0.05, rope=0.01, drop_resamplers=(), 
     target = Path(target)
     command = command or f"lopsided.rebuild_report({str(target)!r})"
     if target.suffix != ".toml":
+        if out is not None:
+            check_writable(out, "--out", str(out))
         return _rebuild_from_store(target, out, alpha, rope, drop_resamplers, command)
     base = load_suite(target)
+    where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
+    check_writable(out, *where)
     store_path = Path(base.path(base.store) or out / "store.sqlite")
     if not store_path.is_file():
         raise StoreError(f"{store_path}: no result store for suite {base.name!r}; run it first")

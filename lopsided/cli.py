@@ -20,7 +20,14 @@ def parser():
 
     run = sub.add_parser("run", help="run a suite file and write its leaderboard folder")
     run.add_argument("suite", help="suite file (TOML), e.g. bench/quick.toml")
-    run.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
+    run.add_argument("--jobs", type=int, default=1,
+                     help="units run at once: local processes, or local Dask workers with --backend dask (default 1)")
+    run.add_argument("--backend", choices=("serial", "processes", "dask"), default="auto",
+                     help="where units run: serial (this process), processes (local worker processes), dask (a "
+                          "Dask cluster: a local one with --jobs workers, or the one at --scheduler); default: "
+                          "serial, processes for --jobs N > 1, dask with --scheduler")
+    run.add_argument("--scheduler", metavar="tcp://HOST:PORT",
+                     help="address of a running Dask scheduler to run the units on (the store stays here)")
     run.add_argument("--out", help="leaderboard folder (default results/<suite name>)")
     run.add_argument("--store", help="result store (default <out>/store.sqlite)")
     run.add_argument("--add-resampler", action="append", default=[], metavar="SPEC",
@@ -121,7 +128,7 @@ def main(argv=None):
     except LopsidedError as exc:
         if args.debug:
             traceback.print_exc()
-        print(f"lopsided: error: {exc}", file=sys.stderr)
+        print("lopsided: error: " + " ".join(str(exc).split()), file=sys.stderr)   # always one line
         return 2
     except BrokenPipeError:
         # The reader (head, less, grep -q) closed the pipe: it has what it wanted. Exit quietly with 0 so
@@ -140,7 +147,8 @@ def _run(args):
     result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
                        add_resamplers=args.add_resampler, drop_resamplers=args.drop_resampler,
                        retry_failed=args.retry_failed, progress=not args.quiet, alpha=args.alpha, rope=args.rope,
-                       compare_split_leakage=args.compare_split_leakage, command=args.command_line)
+                       compare_split_leakage=args.compare_split_leakage, command=args.command_line,
+                       backend=args.backend, scheduler=args.scheduler)
     cells = result.summary["cells"]
     print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
           f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "

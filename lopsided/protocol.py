@@ -64,6 +64,9 @@ def point_counts(counts, minority, ratio, size, min_minority):
 
     ``counts``: {class: rows available in the training part}.
     """
+    if counts.get(minority, 0) < min_minority:
+        return Infeasible(f"only {counts.get(minority, 0)} minority rows in the training part "
+                          f"(< min_minority={min_minority})")
     wanted = _point_counts(counts, minority, ratio, size)
     if isinstance(wanted, Infeasible):
         return wanted

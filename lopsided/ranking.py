@@ -3,13 +3,16 @@ import json
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from .analysis import Comparison, compare
 from .analysis.cdplot import draw
 from .analysis.words import caption, claims
-from .errors import DatasetError
+from .datasets.files import read_csv
+from .errors import DatasetError, unknown
 from .report import CAUTION, ENV
+from .suite import check_writable
 
 LONG_COLUMNS = ("dataset", "method", "score")
 
@@ -19,10 +22,9 @@ def read_scores(path):
     path = Path(path)
     if not path.is_file():
         raise DatasetError(f"{path}: no such file")
-    try:
-        table = pd.read_csv(path)
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
-        raise DatasetError(f"{path}: not a readable CSV table ({exc})") from None
+    table = read_csv(path)
+    if table.empty:
+        raise DatasetError(f"{path}: the table has no rows")
     lowered = {c.lower().strip(): c for c in table.columns}
     if all(c in lowered for c in LONG_COLUMNS):
         d, m, s = (lowered[c] for c in LONG_COLUMNS)
@@ -39,11 +41,11 @@ def read_scores(path):
         if matrix.index.duplicated().any():
             raise DatasetError(f"{path}: dataset {matrix.index[matrix.index.duplicated()][0]!r} appears twice")
     numeric = matrix.apply(pd.to_numeric, errors="coerce")
-    bad = numeric.isna() & matrix.notna()
-    if bad.any().any():
-        method = bad.columns[bad.any()][0]
-        dataset = bad.index[bad[method]][0]
-        raise DatasetError(f"{path}: score of {method!r} on {dataset!r} is not a number: {matrix.loc[dataset, method]!r}")
+    for bad, problem in ((numeric.isna() & matrix.notna(), "is not a number"), (numeric.abs() == np.inf, "is infinite")):
+        if bad.any().any():
+            method = bad.columns[bad.any()][0]
+            dataset = bad.index[bad[method]][0]
+            raise DatasetError(f"{path}: score of {method!r} on {dataset!r} {problem}: {matrix.loc[dataset, method]!r}")
     return numeric
 
 
@@ -69,8 +71,13 @@ def rank(matrix: pd.DataFrame, **options: Any) -> Comparison:
 
 def rank_file(path, out, metric="score", **options):
     """Write stats.json, cd.svg, cd.png and ranking.md for a score file; returns the folder."""
-    result = compare(read_scores(path), metric=metric, **options)
     out = Path(out)
+    check_writable(out, "--out", str(out))
+    matrix = read_scores(path)
+    control = options.get("control")
+    if control is not None and control not in matrix.columns:
+        raise DatasetError(f"{path}: --control: {unknown('control method', control, [str(c) for c in matrix.columns])}")
+    result = compare(matrix, metric=metric, **options)
     out.mkdir(parents=True, exist_ok=True)
     draw(result, str(out / "cd"))
     (out / "stats.json").write_text(json.dumps(result.as_json(), indent=1, allow_nan=False), encoding="utf-8")

@@ -1,22 +1,27 @@
-"""Plan the cells of a suite, run them work unit by work unit, stream results into the store.
+"""Plan the cells of a suite, run them work unit by work unit on a backend, stream results into the store.
 
 A work unit is one resampled training set: (dataset, protocol point, repeat, fold,
 resampler). It is resampled once and every learner of the suite is fitted on that same
 set. A cell is a work unit plus one learner; its key hashes its coordinates and the code
 versions, and its seed derives from the coordinates alone, so adding a method never
 changes another cell and stored cells are reused.
+
+Units run on a backend (``backends``: serial, processes, dask); results stream back to this
+process, which alone writes the store, in batches of whole units. SIGINT and SIGTERM stop a run
+cleanly: queued units are cancelled, running ones abandoned, every finished cell is kept.
 """
 import hashlib
 import json
 import os
+import signal
 import sys
-import time
 import threading
+import time
 import traceback
-import warnings
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from contextlib import contextmanager
 from dataclasses import dataclass, field
-from multiprocessing import get_context
+from functools import lru_cache
+from itertools import islice
 
 import numpy as np
 from tqdm import tqdm
@@ -24,6 +29,10 @@ from tqdm import tqdm
 from . import __version__
 from . import learners as learner_registry
 from . import resamplers as resampler_registry
+from .backends import BackendError, open_backend
+from .backends.worker import captured_warnings, limit_threads, one_job
+from .backends.processes import start_method as _start_method  # noqa: F401  (report/pool.py starts its pool alike)
+from .errors import LopsidedError
 from .metrics import class_scores, score_cell
 from .plugins import code_version
 from . import preprocessing as preprocessing_registry
@@ -32,6 +41,8 @@ from .resamplers.base import check_resampled
 from .store import now
 
 PROTOCOL_VERSION = 1   # bump when splitting or subsetting changes what a cell computes
+BATCH_CELLS = 500      # the driver writes finished units once this many cells wait ...
+BATCH_SECONDS = 0.5    # ... or this long after its last write, whichever comes first
 
 
 @dataclass(frozen=True)
@@ -39,6 +50,7 @@ class Cell:
     learner: object     # MethodSpec
     key: str
     seed: int
+    code: str           # the learner's code version, as planned (part of the key)
 
 
 @dataclass(frozen=True)
@@ -50,6 +62,13 @@ class WorkUnit:
     train: np.ndarray
     test: np.ndarray
     cells: tuple
+    code: dict          # protocol, preprocessing and resampler code versions, as planned (part of the keys)
+
+    def __str__(self):
+        c = self.coords
+        split = f", split {c['split']}" if "split" in c else ""
+        return (f"{c['dataset']}, ratio {c['ratio']}, size {c['size']}, repeat {c['repeat']}, fold {c['fold']}"
+                f"{split}, resampler {self.resampler.title}")
 
 
 @dataclass
@@ -60,6 +79,13 @@ class Plan:
     @property
     def keys(self):
         return [cell.key for unit in self.units for cell in unit.cells]
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """What a worker sends back for one unit: its rows and the code versions it ran."""
+    rows: list
+    versions: dict      # protocol, preprocessing (list), resampler, learner ({canonical: version})
 
 
 def _hash(payload):
@@ -110,11 +136,35 @@ def plan(suite, datasets, split="grouped"):
                         cells = tuple(
                             Cell(learner, _hash({**coords, "learner": learner.canonical,
                                                  "code": {**code, "learner": versions["learner"][learner.canonical]}}),
-                                 derive_seed(coords, learner.canonical))
+                                 derive_seed(coords, learner.canonical), versions["learner"][learner.canonical])
                             for learner in suite.learners)
+                        unit_code = {k: code[k] for k in ("protocol", "preprocessing", "resampler")}
                         result.units.append(WorkUnit(_hash({**coords, "code": code}), coords, spec,
-                                                     derive_seed(coords), rows, test, cells))
+                                                     derive_seed(coords), rows, test, cells, unit_code))
     return result
+
+
+@lru_cache(maxsize=None)
+def _version_of(factory):
+    """code_version, once per resolved object and process (a reloaded module gives new objects)."""
+    return code_version(factory)
+
+
+def worker_versions(unit, preprocessing_specs):
+    """The code versions of the unit's methods as resolved by the process that runs it."""
+    return {"protocol": PROTOCOL_VERSION,
+            "preprocessing": [_version_of(preprocessing_registry.resolve(s.name)) for s in preprocessing_specs],
+            "resampler": _version_of(resampler_registry.resolve(unit.resampler.name)),
+            "learner": {c.learner.canonical: _version_of(learner_registry.resolve(c.learner.name))
+                        for c in unit.cells}}
+
+
+def run_unit(unit, data, preprocessing_specs):
+    """A worker's part for one unit, on every backend: BLAS / OpenMP limited to one thread, the code
+    versions of the methods as this worker resolves them, then the unit's rows."""
+    limit_threads()
+    ran = worker_versions(unit, preprocessing_specs)
+    return Outcome(execute_unit(unit, data, preprocessing_specs, ran), ran)
 
 
 def _error_text(exc):
@@ -124,14 +174,19 @@ def _error_text(exc):
     return f"{type(exc).__name__}: {exc}{where}"
 
 
-def execute_unit(unit, data, preprocessing_specs):
-    """Resample the unit's training rows once, fit and score every learner; one row per cell."""
+def execute_unit(unit, data, preprocessing_specs, versions):
+    """Resample the unit's training rows once, fit and score every learner; one row per cell.
+
+    ``versions`` (from ``worker_versions``) is stored with each cell as the code it ran."""
     X_train, y_train = data.X[unit.train], data.y[unit.train]
     X_test, y_test = data.X[unit.test], data.y[unit.test]
     base = {**{k: unit.coords[k] for k in ("dataset", "dataset_checksum", "ratio", "size", "repeat", "fold")},
             "preprocessing": json.dumps(unit.coords["preprocessing"]), "resampler": unit.resampler.canonical,
             "unit_key": unit.key, "n_train": len(y_train), "n_test": len(y_test),
-            "n_train_minority": int((y_train == data.minority).sum()), "code_version": __version__}
+            "n_train_minority": int((y_train == data.minority).sum())}
+    code = {"lopsided": __version__, **{k: versions[k] for k in ("protocol", "preprocessing", "resampler")}}
+    ran = {c.key: json.dumps({**code, "learner": versions["learner"][c.learner.canonical]}, sort_keys=True)
+           for c in unit.cells}
     stage = "preprocessing"
     try:
         pipeline = preprocessing_registry.make_preprocessing(preprocessing_specs, data.axis)
@@ -139,25 +194,25 @@ def execute_unit(unit, data, preprocessing_specs):
             X_train, X_test = pipeline.fit_transform(X_train, y_train), pipeline.transform(X_test)
         stage = f"resampler {unit.resampler.title}"
         started = time.perf_counter()
-        resampler = resampler_registry.make_resampler(unit.resampler, unit.seed)
+        resampler = one_job(resampler_registry.make_resampler(unit.resampler, unit.seed))
         X_res, y_res = resampler.fit_resample(X_train.copy(), y_train.copy())
         X_res, y_res = check_resampled(unit.resampler.title, X_train, y_train, X_res, y_res)
         resample_seconds = time.perf_counter() - started
     except Exception as exc:
         error = f"{stage}: {_error_text(exc)}"
-        return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "status": "failed",
-                 "error": error, "finished_at": now()} for c in unit.cells]
+        return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "code_version": ran[c.key],
+                 "status": "failed", "error": error, "finished_at": now()} for c in unit.cells]
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
     weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
-    return [_fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data) for cell in unit.cells]
+    return [_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test, y_test, data)
+            for cell in unit.cells]
 
 
 def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
     row = {**base, "key": cell.key, "learner": cell.learner.canonical, "seed": cell.seed}
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    with captured_warnings() as caught:
         try:
-            model = learner_registry.make_learner(cell.learner, cell.seed)
+            model = one_job(learner_registry.make_learner(cell.learner, cell.seed))
             started = time.perf_counter()
             model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
             fitted = time.perf_counter()
@@ -176,47 +231,48 @@ def _warning_text(caught):
     """The first warning a cell raised (e.g. a solver that did not converge) and how many there were."""
     if not caught:
         return None
-    first = caught[0]
+    category, message = caught[0]
     more = f" (+{len(caught) - 1} more)" if len(caught) > 1 else ""
-    return f"{first.category.__name__}: {str(first.message).splitlines()[0]}{more}"
+    return f"{category.__name__}: {str(message).splitlines()[0]}{more}"
 
 
-_WORKER = {}
+def execute(units, backend):
+    """Hand ``units`` to ``backend`` and yield, step by step, the [(unit, Outcome)] finished since the
+    last step (possibly none: the caller regains control at least every BATCH_SECONDS). The backend holds a few more units than it has slots, so no worker waits for the
+    driver and little is queued when a run stops; on leaving (done, an error, a signal) every queued
+    unit is cancelled."""
+    queue = iter(units)
+    waiting = 0
+    try:
+        while True:
+            for unit in islice(queue, max(0, 2 * backend.slots + 2 - waiting)):
+                backend.submit(unit, unit.coords["dataset"])
+                waiting += 1
+            if not waiting:
+                return
+            done = backend.finished(BATCH_SECONDS)
+            waiting -= len(done)
+            yield done
+    finally:
+        backend.cancel()
 
 
-def _start_worker(datasets, preprocessing_specs):
-    from threadpoolctl import threadpool_limits
-    threadpool_limits(1)    # one core per process: N processes, N cores
-    _WORKER.update(datasets=datasets, preprocessing=preprocessing_specs)
+def check_versions(unit, ran):
+    """Refuse a result whose worker ran other code than the plan (and so the cell keys) assumed."""
+    planned = {**unit.code, "learner": {c.learner.canonical: c.code for c in unit.cells}}
+    for (what, want), (_, got) in zip(_labelled(unit, planned), _labelled(unit, ran)):
+        if want != got:
+            raise BackendError(f"{unit}: {what}: the worker ran {got!r}, but the plan and its cell keys use "
+                               f"{want!r}; install the same versions of lopsided and the suite's plugins on the "
+                               "driver and every worker, then run again")
 
 
-def _work(unit):
-    return execute_unit(unit, _WORKER["datasets"][unit.coords["dataset"]], _WORKER["preprocessing"])
-
-
-def execute(units, datasets, preprocessing_specs, jobs, on_done):
-    """Run ``units`` serially (jobs=1) or on ``jobs`` local processes; ``on_done(unit, rows)`` in this process."""
-    if jobs == 1:
-        for unit in units:
-            on_done(unit, execute_unit(unit, datasets[unit.coords["dataset"]], preprocessing_specs))
-        return
-    context = get_context(_start_method())
-    if context.get_start_method() == "forkserver":
-        context.set_forkserver_preload(["lopsided.runner"])
-    needed = {u.coords["dataset"] for u in units}
-    with ProcessPoolExecutor(jobs, mp_context=context, initializer=_start_worker,
-                             initargs=({k: v for k, v in datasets.items() if k in needed}, preprocessing_specs)) as pool:
-        futures = {pool.submit(_work, unit): unit for unit in units}
-        for future in as_completed(futures):
-            on_done(futures[future], future.result())
-
-
-def _start_method():
-    """'fork' on Linux while this process runs no other Python thread (workers start in
-    milliseconds, datasets are inherited, not pickled); else 'forkserver' (Linux) or 'spawn'."""
-    if not sys.platform.startswith("linux"):
-        return "spawn"
-    return "fork" if threading.active_count() == 1 else "forkserver"
+def _labelled(unit, versions):
+    yield "protocol", versions["protocol"]
+    yield from ((f"preprocessing step {name}", version)
+                for name, version in zip(unit.coords["preprocessing"], versions["preprocessing"]))
+    yield f"resampler {unit.resampler.title}", versions["resampler"]
+    yield from ((f"learner {c.learner.title}", versions["learner"][c.learner.canonical]) for c in unit.cells)
 
 
 def pending(full_plan, stored):
@@ -225,7 +281,8 @@ def pending(full_plan, stored):
     for unit in full_plan.units:
         cells = tuple(c for c in unit.cells if c.key not in stored)
         if cells:
-            todo.append(WorkUnit(unit.key, unit.coords, unit.resampler, unit.seed, unit.train, unit.test, cells))
+            todo.append(WorkUnit(unit.key, unit.coords, unit.resampler, unit.seed, unit.train, unit.test, cells,
+                                 unit.code))
     return todo
 
 
@@ -254,27 +311,116 @@ class LogProgress:
         pass
 
 
-def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True):
-    """Compute what is missing from ``store``; return counts {planned, reused, computed, failed, skipped}."""
+class Stopped(BaseException):
+    """SIGINT or SIGTERM arrived while the runner could stop (a BaseException, so that no unit's own
+    ``except Exception`` takes it for a failure of the unit)."""
+
+
+class Interrupted(LopsidedError):
+    """A run stopped by SIGINT or SIGTERM; every finished cell is in the store."""
+
+
+class _Signals:
+    """While installed (main thread only), SIGINT and SIGTERM raise Stopped inside ``stoppable()``
+    blocks and are remembered elsewhere, to be raised at the next ``stoppable()``: starting and
+    stopping workers and writing the store are never cut short. Previous handlers come back on exit."""
+
+    def __init__(self):
+        self.received, self.armed, self.previous = None, False, {}
+
+    def __enter__(self):
+        if threading.current_thread() is threading.main_thread():
+            self.previous = {s: signal.signal(s, self._handle) for s in (signal.SIGINT, signal.SIGTERM)}
+        return self
+
+    def __exit__(self, *exc):
+        for number, handler in self.previous.items():
+            signal.signal(number, handler)
+
+    def _handle(self, number, frame):
+        self.received = self.received or signal.Signals(number).name
+        if self.armed:
+            self.armed = False
+            raise Stopped(self.received)
+
+    @contextmanager
+    def stoppable(self):
+        if self.received:
+            raise Stopped(self.received)
+        self.armed = True
+        try:
+            yield
+        finally:
+            self.armed = False
+
+
+class _Batch:
+    """Rows of whole finished units, written in one transaction when BATCH_CELLS wait or BATCH_SECONDS
+    have passed since the last write (and once more however the run ends)."""
+
+    def __init__(self, store):
+        self.store, self.rows, self.since = store, [], time.monotonic()
+
+    def add(self, rows):
+        self.rows.extend(rows)
+
+    def due(self):
+        return len(self.rows) >= BATCH_CELLS or time.monotonic() - self.since >= BATCH_SECONDS
+
+    def write(self):
+        if self.rows:
+            self.store.write_cells(self.rows)
+            self.rows = []
+        self.since = time.monotonic()
+
+
+def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True, backend="auto",
+             scheduler=None):
+    """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return counts
+    {planned, reused, computed, failed, skipped_points}. Raises Interrupted after SIGINT / SIGTERM."""
     stored = store.known_keys(full_plan.keys, include_failed=not retry_failed)
     todo = pending(full_plan, stored)
     counts = {"planned": len(full_plan.keys), "reused": len(stored), "computed": 0, "failed": 0,
               "skipped_points": len(full_plan.skipped)}
-    total = sum(len(u.cells) for u in todo)
-    if progress and sys.stderr.isatty():
-        bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr, dynamic_ncols=True)
-    else:
-        bar = LogProgress(total, suite.name, quiet=not progress)
-
-    def on_done(unit, rows):
-        store.write_unit(rows)
-        counts["computed"] += len(rows)
-        counts["failed"] += sum(r["status"] == "failed" for r in rows)
-        bar.update(len(rows))
-        bar.set_postfix(failed=counts["failed"], refresh=False)
-
-    try:
-        execute(todo, datasets, suite.preprocessing, jobs, on_done)
-    finally:
-        bar.close()
+    if not todo:
+        return counts
+    needed = {unit.coords["dataset"] for unit in todo}
+    with _Signals() as signals:
+        workers = open_backend(backend, run_unit, {ref: datasets[ref] for ref in needed},
+                               (tuple(suite.preprocessing),), jobs, scheduler)
+        total = sum(len(u.cells) for u in todo)
+        if progress and sys.stderr.isatty():
+            bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr,
+                       dynamic_ncols=True)
+        else:
+            bar = LogProgress(total, suite.name, quiet=not progress)
+        batch = _Batch(store)
+        steps = execute(todo, workers)
+        try:
+            while True:
+                with signals.stoppable():
+                    done = next(steps, None)
+                if done is None:
+                    break
+                for unit, outcome in done:
+                    check_versions(unit, outcome.versions)
+                    batch.add(outcome.rows)
+                    counts["computed"] += len(outcome.rows)
+                    counts["failed"] += sum(r["status"] == "failed" for r in outcome.rows)
+                    bar.update(len(outcome.rows))
+                    bar.set_postfix(failed=counts["failed"], refresh=False)
+                if batch.due():
+                    batch.write()
+        except Stopped:
+            pass
+        finally:
+            steps.close()
+            batch.write()
+            workers.close()
+            bar.close()
+    if signals.received:
+        kept = len(store.known_keys(full_plan.keys))
+        raise Interrupted(f"stopped by {signals.received}: {kept} of {counts['planned']} planned cells are kept in "
+                          f"{store.path} ({counts['computed']} computed now); run the same command again to "
+                          f"compute the other {counts['planned'] - kept}")
     return counts

@@ -1,7 +1,10 @@
-"""SQLite result store: one row per cell, committed as each work unit finishes.
+"""SQLite result store: one row per cell, committed in batches of whole work units.
 
-Rows are written in one transaction per work unit, so an interrupted run leaves only
-whole units behind and the next run resumes from there. Several suites may share a store;
+The runner writes the rows of whole finished units in one transaction (every half second or
+500 cells), so an interrupted run leaves only whole units behind and the next run resumes from
+there. The write-ahead log is synced at checkpoints, not at every commit (``synchronous=NORMAL``,
+SQLite documentation, "Write-Ahead Logging"): a power cut may lose the last batches, never the
+store's consistency, and lost cells are simply computed again. Several suites may share a store;
 the ``runs`` table records which cell keys each run planned.
 """
 import json
@@ -37,21 +40,45 @@ class Store:
         self.path = Path(path)
         if not create and not self.path.is_file():
             raise StoreError(f"{self.path}: no such result store")
-        self.path.parent.mkdir(parents=True, exist_ok=True)
         try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
             self.db = sqlite3.connect(self.path)
-            self.db.execute("PRAGMA journal_mode=WAL")
-            self._migrate()
+        except (OSError, sqlite3.Error) as exc:
+            blocker = next((p for p in self.path.parents if p.is_file()), None)
+            why = f"{blocker} is a file, not a folder" if blocker else " ".join(str(exc).split())
+            raise StoreError(f"{self.path}: cannot create or open the store here: {why}") from None
+        try:
+            self._migrate(create)
+            self.db.execute("PRAGMA synchronous=NORMAL")
         except sqlite3.DatabaseError as exc:
+            self.db.close()
             raise StoreError(f"{self.path}: not a lopsided result store ({exc})") from None
+        except StoreError:
+            self.db.close()
+            raise
 
-    def _migrate(self):
+    def _migrate(self, create=True):
+        """Check what the file is before anything is written (a foreign, future or empty file stays as it
+        was), then switch to write-ahead logging and create what is missing."""
+        tables = sorted(name for (name,) in self.db.execute("SELECT name FROM sqlite_master WHERE type = 'table'"))
+        if tables and "meta" not in tables:
+            raise StoreError(f"{self.path}: not a lopsided result store: an SQLite database with other tables "
+                             f"({', '.join(tables[:5])}); name another store file")
+        if not tables and not create:
+            raise StoreError(f"{self.path}: not a lopsided result store: an empty database")
+        if tables:
+            found = self.db.execute("SELECT value FROM meta WHERE key = 'schema'").fetchone()
+            schema = str(found[0]) if found else "missing"
+            if schema.isdigit() and int(schema) > SCHEMA_VERSION:
+                raise StoreError(f"{self.path}: schema: store schema {schema} was written by a newer lopsided "
+                                 f"(this one reads schema {SCHEMA_VERSION}); upgrade lopsided to read it")
+            if schema != str(SCHEMA_VERSION):
+                raise StoreError(f"{self.path}: schema: store schema {schema!r}, this lopsided reads "
+                                 f"{SCHEMA_VERSION}; not a lopsided result store it can read")
+        self.db.execute("PRAGMA journal_mode=WAL")
         columns = ", ".join(f"{name} {kind}" for name, kind in CELL_COLUMNS)
         with self.db:
             self.db.execute("CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT)")
-            found = self.db.execute("SELECT value FROM meta WHERE key = 'schema'").fetchone()
-            if found and int(found[0]) != SCHEMA_VERSION:
-                raise StoreError(f"{self.path}: store schema {found[0]}, this lopsided reads {SCHEMA_VERSION}")
             self.db.execute("INSERT OR IGNORE INTO meta VALUES ('schema', ?)", (str(SCHEMA_VERSION),))
             self.db.execute(f"CREATE TABLE IF NOT EXISTS cells ({columns})")
             self.db.execute("CREATE TABLE IF NOT EXISTS runs (run_id INTEGER PRIMARY KEY, suite TEXT, "
@@ -78,8 +105,8 @@ class Store:
         status = "" if include_failed else " AND status = 'ok'"
         return {row[0] for row in self._select("key", keys, status)}
 
-    def write_unit(self, rows):
-        """Insert (or replace) one work unit's cells in one transaction."""
+    def write_cells(self, rows):
+        """Insert (or replace) the cells of whole work units in one transaction."""
         marks = ",".join("?" * len(NAMES))
         values = [tuple(_cell_value(row, name) for name in NAMES) for row in rows]
         with self.db:

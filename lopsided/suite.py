@@ -5,13 +5,17 @@ file, the field and the allowed values: ``bench/quick.toml: protocol.ratios: ...
 """
 import hashlib
 import json
+import math
+import os
+import re
 import tomllib
 from dataclasses import dataclass, replace
 from pathlib import Path
 
 from . import learners, preprocessing, resamplers
 from .datasets import DATASETS
-from .errors import LopsidedError, SuiteError, did_you_mean, unknown
+from .datasets.files import utf8_problem
+from .errors import LopsidedError, MethodError, SuiteError, did_you_mean, unknown
 from .metrics import METRICS
 from .plugins import accepted_params
 from .specs import MethodSpec, parse_method, parse_reference
@@ -22,6 +26,7 @@ NO_CONTROL = "none"
 PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority"}
 RATIO_WORDS = ("natural", "balanced")
 METHOD_KEYS = {"name", "params", "label"}
+TOML_PLACE = re.compile(r"\s*\(at (?:line (\d+), column (\d+)|end of document)\)$")
 
 
 @dataclass(frozen=True)
@@ -131,8 +136,13 @@ def load_suite(path):
         raise SuiteError(path, "file", "no such suite file")
     try:
         raw = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise SuiteError(path, "file", f"not valid TOML ({exc})") from None
+    except UnicodeDecodeError:
+        raise SuiteError(path, *utf8_problem(path)) from None
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        place = TOML_PLACE.search(message)
+        field = "file" if not place else f"line {place[1]}, column {place[2]}" if place[1] else "end of file"
+        raise SuiteError(path, field, f"not valid TOML: {TOML_PLACE.sub('', message)}") from None
     return suite_from_dict(raw, source=str(path))
 
 
@@ -145,17 +155,18 @@ def suite_from_dict(raw, source="<suite>"):
     seed = raw.get("seed", 0)
     if not isinstance(seed, int) or isinstance(seed, bool) or seed < 0:
         raise SuiteError(source, "seed", f"{seed!r} is not a non-negative whole number")
-    metrics = tuple(raw.get("metrics", ["balanced_accuracy", "g_mean", "mcc", "roc_auc"]))
-    for i, metric in enumerate(metrics):
-        if metric not in METRICS:
-            raise SuiteError(source, f"metrics[{i}]", unknown("metric", metric, METRICS))
-    if not metrics:
+    metrics = raw.get("metrics", ["balanced_accuracy", "g_mean", "mcc", "roc_auc"])
+    if not isinstance(metrics, list) or not metrics:
         raise SuiteError(source, "metrics", "list at least one metric; the first is the headline")
+    for i, metric in enumerate(metrics):
+        if not isinstance(metric, str) or metric not in METRICS:
+            raise SuiteError(source, f"metrics[{i}]", unknown("metric", metric, METRICS))
+    metrics = tuple(metrics)
     store, out = raw.get("store"), raw.get("out")
     for field, value in (("store", store), ("out", out)):
         if value is not None and (not isinstance(value, str) or not value.strip()):
             raise SuiteError(source, field, f"{value!r} is not a path")
-    resampler_specs = _methods(raw.get("resamplers", ["none"]), source, "resamplers", resamplers.resolve)
+    resampler_specs = _methods(raw.get("resamplers", ["none"]), source, "resamplers", resolve_resampler)
     return Suite(
         name=name.strip(),
         seed=seed,
@@ -179,7 +190,7 @@ def _control(value, specs, source):
         return None
     labels = [s.title for s in specs]
     if not isinstance(value, str) or (value and value not in labels):
-        raise SuiteError(source, "control", unknown("resampler", str(value), [*labels, NO_CONTROL]))
+        raise SuiteError(source, "control", unknown("resampler", str(value), {*labels, NO_CONTROL}))
     return value
 
 
@@ -196,9 +207,12 @@ def _datasets(value, source):
     for i, text in enumerate(value):
         if not isinstance(text, str):
             raise SuiteError(source, f"datasets[{i}]", f"{text!r} is not a dataset reference string")
-        scheme = parse_reference(text).scheme
-        if scheme not in DATASETS:
-            raise SuiteError(source, f"datasets[{i}]", unknown("dataset scheme", scheme, DATASETS.names()))
+        reference = parse_reference(text)
+        if reference.scheme not in DATASETS:
+            raise SuiteError(source, f"datasets[{i}]", unknown("dataset scheme", reference.scheme, DATASETS.names()))
+        if not reference.body.strip():
+            raise SuiteError(source, f"datasets[{i}]", f"{text!r} names no dataset after "
+                             f"'{reference.scheme}:'; e.g. \"sklearn:wine?positive=2\" or \"file:films.csv?label=status\"")
     if len(set(value)) != len(value):
         raise SuiteError(source, "datasets", "a dataset is listed twice")
     return tuple(value)
@@ -212,9 +226,12 @@ def _methods(value, source, field, resolve, allow_empty=False):
         where = f"{field}[{i}]"
         spec = _method(item, source, where)
         try:
-            allowed = accepted_params(resolve(spec.name))
+            factory = resolve(spec.name)
         except LopsidedError as exc:
             raise SuiteError(source, where, str(exc)) from None
+        if not callable(factory):
+            raise SuiteError(source, where, f"{spec.name}: is {type(factory).__name__}, not a class or function")
+        allowed = accepted_params(factory)
         for key in spec.params:
             offered = None if allowed is None else allowed - {"random_state", "axis"}
             if offered is not None and key not in offered:
@@ -222,6 +239,34 @@ def _methods(value, source, field, resolve, allow_empty=False):
         _check_new_label(specs, spec, source, where)
         specs.append(spec)
     return tuple(specs)
+
+
+def resolve_resampler(name):
+    """The factory ``name`` resolves to; a class without ``fit_resample`` is refused before any work."""
+    factory = resamplers.resolve(name)
+    if isinstance(factory, type) and not callable(getattr(factory, "fit_resample", None)):
+        raise MethodError(f"{name}: {factory.__name__} has no fit_resample(X, y) method, so it is not a resampler")
+    return factory
+
+
+def added_resampler(text):
+    """An --add-resampler value -> MethodSpec, refused unless it names a resampler."""
+    spec = parse_method(text)
+    try:
+        resolve_resampler(spec.name)
+    except LopsidedError as exc:
+        raise SuiteError("--add-resampler", text, str(exc).removeprefix(f"{spec.name}: ")) from None
+    return spec
+
+
+def check_writable(folder, source, field):
+    """SuiteError unless ``folder`` exists as a writable folder or can be made: checked before any work."""
+    folder = Path(folder)
+    existing = next(p for p in (folder, *folder.parents) if p.exists())
+    if not existing.is_dir():
+        raise SuiteError(source, field, f"cannot write results here: {existing} is a file, not a folder")
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise SuiteError(source, field, f"cannot write results here: {existing} is read-only")
 
 
 def _method(item, source, where):
@@ -255,7 +300,8 @@ def _protocol(table, source):
     min_minority = _whole(table.get("min_minority", defaults.min_minority), source, "protocol.min_minority", 2)
     ratios = _list(table.get("ratios", list(defaults.ratios)), source, "protocol.ratios")
     for value in ratios:
-        if value not in RATIO_WORDS and (isinstance(value, bool) or not isinstance(value, (int, float)) or value < 1):
+        if value not in RATIO_WORDS and (isinstance(value, bool) or not isinstance(value, (int, float))
+                                         or not 1 <= value < math.inf):
             raise SuiteError(source, "protocol.ratios", f"{value!r} is not an imbalance ratio; allowed: "
                              "\"natural\", \"balanced\" or a number >= 1 (majority:minority)")
     sizes = _list(table.get("sizes", list(defaults.sizes)), source, "protocol.sizes")

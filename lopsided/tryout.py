@@ -152,10 +152,9 @@ def try_dataset(reference: str, suite_path: str | Path = "bench/quick.toml", boa
     section.update(_neighbours(reference, board, base.headline))
     section["curves"] = _curves(cells, targets, _rows_per_minority_group(load_dataset(reference)))
     summary = {**result.summary, "tryout": section, "verdict": list(section.get("verdict", ()))}
-    write_report(result.out, suite.as_dict(), result.cells, result.skipped, summary, alpha=alpha, rope=rope)
-    for curve in section["curves"]:
-        if curve.get("figure"):
-            learning_curve_figure(curve, result.out / curve["figure"])
+    figures = [(learning_curve_figure, (curve,), curve["figure"]) for curve in section["curves"] if curve.get("figure")]
+    write_report(result.out, suite.as_dict(), result.cells, result.skipped, summary, alpha=alpha, rope=rope,
+                 extra_figures=figures)
     return TryResult(result.out, result, tuple(summary["verdict"]))
 
 

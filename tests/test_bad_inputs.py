@@ -7,7 +7,6 @@ follow the house message style ("file: field: problem; did you mean ...", DEVELO
 """
 import hashlib
 import json
-import os
 import shutil
 import sqlite3
 import subprocess
@@ -98,10 +97,10 @@ def table_suite(folder, results, name, content, query="?label=label&group=donor"
 
 
 def plugin(folder, monkeypatch):
-    """A module `h9_sorting` whose class `Sorter` has no fit_resample (importable from ``folder``)."""
-    (folder / "h9_sorting.py").write_text("class Sorter:\n    def sort(self, X, y):\n        return X, y\n")
+    """A module `sorting_only` whose class `Sorter` has no fit_resample (importable from ``folder``)."""
+    (folder / "sorting_only.py").write_text("class Sorter:\n    def sort(self, X, y):\n        return X, y\n")
     monkeypatch.syspath_prepend(str(folder))
-    monkeypatch.delitem(sys.modules, "h9_sorting", raising=False)
+    monkeypatch.delitem(sys.modules, "sorting_only", raising=False)
 
 
 CASES = {}
@@ -117,7 +116,7 @@ def case(*needles, xfail=None):
 
 # --- tables (file: datasets) -------------------------------------------------------------------------------------
 
-@case("films.csv", "line 3", "3 fields")
+@case("films.csv", "line 3", "4 values", "3 columns")
 def malformed_csv(folder, results, _):
     return table_suite(folder, results, "films.csv", "x1,x2,label\n1,2,ok\n3,4,5,flag\n1,2,ok\n"), ()
 
@@ -177,7 +176,7 @@ def label_not_named(folder, results, _):
 
 @case("films.csv", "positive", "'spoiled'")
 def positive_class_not_in_labels(folder, results, _):
-    return table_suite(folder, results, "films.csv", FILMS, "?label=label&positive=spoiled"), ()
+    return table_suite(folder, results, "films.csv", FILMS, "?label=label&group=donor&positive=spoiled"), ()
 
 
 KEEL = """@relation polymers
@@ -249,6 +248,18 @@ def jcamp_truncated_data_block(folder, results, _):
     return run(suite(folder, [f"jcamp:{spectra}?labels=labels.csv&label=status"]), results), ()
 
 
+@case("no /polymers.dat")
+def keel_name_with_a_leading_slash(folder, results, _):
+    (folder / "polymers.dat").write_text(KEEL)
+    return ["datasets", "show", f"keel:{folder}#/polymers"], ()
+
+
+@case("no *.dat")
+def keel_name_with_a_wildcard(folder, results, _):
+    (folder / "polymers.dat").write_text(KEEL)
+    return ["datasets", "show", f"keel:{folder}#*"], ()
+
+
 # --- suite files ---------------------------------------------------------------------------------------------------
 
 @case("case.toml", "datasets[0]", "did you mean 'sklearn'")
@@ -264,6 +275,11 @@ def unknown_dataset_parameter(folder, results, _):
 @case("case.toml", "datasets[0]", "file:?label=label", "names no dataset")
 def dataset_reference_with_empty_body(folder, results, _):
     return run(suite(folder, ["file:?label=label"]), results), ()
+
+
+@case("file:?label=label", "no file named")
+def empty_reference_body_on_the_command_line(folder, results, _):
+    return ["datasets", "show", "file:?label=label"], ()
 
 
 @case("case.toml", "datasets", "list at least one")
@@ -310,7 +326,7 @@ def unknown_top_level_field(folder, results, _):
     return run(suite(folder, extra='resamplr = ["none"]'), results), ()
 
 
-@case("case.toml", "not valid TOML", "line 3")
+@case("case.toml", "line 4, column 1", "not valid TOML")
 def toml_syntax_error(folder, results, _):
     path = folder / "case.toml"
     path.write_text('name = "case"\nseed = 1\ndatasets = ["sklearn:iris?positive=1"\nresamplers = ["none"]\n')
@@ -341,33 +357,31 @@ def zero_ratio(folder, results, _):
     return run(suite(folder, protocol="ratios = [0]"), results), ()
 
 
-@case("case.toml", "protocol", "sklearn:iris?positive=1", "min_minority",
-      xfail="needs the plan check in benchmark.run_suite (helper-9 report)")
+@case("case.toml", "protocol", "sklearn:iris?positive=1", "min_minority")
 def ratio_the_data_cannot_reach(folder, results, _):
     return run(suite(folder, protocol="ratios = [1000]"), results), ()
 
 
-@case("case.toml", "protocol", "sklearn:iris?positive=1", "exceeds",
-      xfail="needs the plan check in benchmark.run_suite (helper-9 report)")
+@case("case.toml", "protocol", "sklearn:iris?positive=1", "exceeds")
 def size_larger_than_the_data(folder, results, _):
     return run(suite(folder, protocol="sizes = [100000]"), results), ()
 
 
-@case("case.toml", "resamplers[0]", "cannot import", "h9_no_such_package")
+@case("case.toml", "resamplers[0]", "cannot import", "no_such_package_for_tests")
 def plugin_that_does_not_import(folder, results, _):
-    return run(suite(folder, resamplers='["h9_no_such_package.methods:Halves"]'), results), ()
+    return run(suite(folder, resamplers='["no_such_package_for_tests.methods:Halves"]'), results), ()
 
 
-@case("case.toml", "resamplers[0]", "h9_sorting:Sorter", "fit_resample")
+@case("case.toml", "resamplers[0]", "sorting_only:Sorter", "fit_resample")
 def plugin_without_fit_resample(folder, results, monkeypatch):
     plugin(folder, monkeypatch)
-    return run(suite(folder, resamplers='["h9_sorting:Sorter"]'), results), ()
+    return run(suite(folder, resamplers='["sorting_only:Sorter"]'), results), ()
 
 
-@case("--add-resampler", "h9_sorting:Sorter", "fit_resample")
+@case("--add-resampler", "sorting_only:Sorter", "fit_resample")
 def added_plugin_without_fit_resample(folder, results, monkeypatch):
     plugin(folder, monkeypatch)
-    return run(suite(folder), results, "--add-resampler", "h9_sorting:Sorter"), ()
+    return run(suite(folder), results, "--add-resampler", "sorting_only:Sorter"), ()
 
 
 @case("--jobs", "0", "whole number >= 1")
@@ -397,7 +411,7 @@ def report_output_under_a_file(folder, results, _):
     return ["report", str(results / "store.sqlite"), "--out", str(folder / "blocker" / "sub")], [folder / "blocker"]
 
 
-@case("--store", "blocker", "not a folder")
+@case("store.sqlite", "blocker", "not a folder")
 def store_under_a_file(folder, results, _):
     (folder / "blocker").write_text("a file, not a folder")
     return run(suite(folder), results, "--store", str(folder / "blocker" / "store.sqlite")), [folder / "blocker"]
@@ -474,7 +488,7 @@ def scores_with_one_method(folder, results, _):
     return scores(folder, results, "dataset,smote\nserum,0.8\nfilms,0.7\n")
 
 
-@case("scores.csv", "--control", "did you mean 'smote'")
+@case("scores.csv", "--control", "did you mean 'smote'", "known: none, random-under, smote")
 def rank_with_an_unknown_control(folder, results, _):
     return scores(folder, results, SCORES, "--control", "smot")
 
@@ -520,7 +534,7 @@ def test_the_installed_command_exits_2_with_one_line(tmp_path):
     path = suite(tmp_path, protocol="ratios = [-2]")
     command = Path(sys.executable).with_name("lopsided")
     done = subprocess.run([str(command), "run", str(path), "--out", str(tmp_path / "never"), "--quiet"],
-                          capture_output=True, text=True, env={**os.environ, "PYTHONWARNINGS": "ignore"})
+                          capture_output=True, text=True)
     assert done.returncode == 2 and done.stdout == ""
     assert done.stderr.splitlines() == [done.stderr.strip()] and "case.toml: protocol.ratios" in done.stderr
     assert not (tmp_path / "never").exists()

@@ -46,7 +46,7 @@ def test_dataset_parameters_are_text_until_their_adapter_types_them(tmp_path):
     assert coded.classes == ("not 007", "007")                                       # not the number 7
     with pytest.raises(DatasetError, match=r"donors: 'many' is not a whole number"):
         load_dataset("spectra:serum?donors=many")
-    with pytest.raises(DatasetError, match=r"effect: 'strong' is not a number"):
+    with pytest.raises(DatasetError, match=r"effect: 'strong' is not a finite number"):
         load_dataset("spectra:serum?effect=strong")
 
 

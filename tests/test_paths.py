@@ -38,6 +38,8 @@ folds = 2
 
 
 def test_describing_a_dataset_never_downloads(tmp_path, monkeypatch, capsys):
+    from lopsided.datasets import _load
+    _load.cache_clear()                                      # nothing loaded earlier in this process counts
     monkeypatch.setenv("LOPSIDED_CACHE", str(tmp_path / "empty-cache"))
     assert main(["datasets", "show", "keel:pima"]) == 2
     assert "lopsided datasets fetch keel" in capsys.readouterr().err

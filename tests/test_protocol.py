@@ -48,6 +48,7 @@ def test_infeasible_point_is_reported_not_altered():
     assert isinstance(point_counts(available, 1, 50, "all", 5), Infeasible)  # 2 minority < 5
     assert point_counts(available, 1, 1, 20, 5) == {1: 10, 0: 10}
     assert isinstance(point_counts(available, 1, "natural", 500, 5), Infeasible)
+    assert isinstance(point_counts({0: 40}, 1, 2, "all", 5), Infeasible)              # no minority row at all
 
 
 def test_test_part_is_the_same_for_every_point_and_resampler(write_suite):

@@ -9,7 +9,6 @@ are printed, never asserted. Screenshots at 1280 and 390 px go to the test's tmp
 import functools
 import http.server
 import threading
-import os
 from pathlib import Path
 from urllib.parse import unquote, urlparse
 
@@ -20,7 +19,7 @@ from lopsided.report.site import PAGES
 sync_api = pytest.importorskip("playwright.sync_api", reason="playwright (pip install playwright) is not installed")
 
 ROOT = Path(__file__).resolve().parents[1]
-SITE = Path(os.environ.get("H7_SITE", ROOT / "results" / "quick"))
+SITE = ROOT / "results" / "quick"
 CHROMIUM = Path("/usr/bin/chromium")
 ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
         "--disable-background-networking", "--disable-component-update", "--disable-sync"]
@@ -183,5 +182,23 @@ def test_screenshots_at_desktop_and_phone_widths(browser, width, tmp_path):
             view.screenshot(path=str(shot), full_page=page.file == "index.html")
             print(f"screenshot: {shot}")
         assert not watched.problems, watched.problems
+    finally:
+        watched.close()
+
+
+def test_the_copy_button_copies_or_selects_the_whole_bibtex(browser):
+    watched = Watched(browser, SITE.as_uri() + "/")
+    try:
+        watched.context.grant_permissions(["clipboard-read", "clipboard-write"])
+        page = watched.open("cite.html")
+        page.get_by_role("button", name="Copy BibTeX").click()
+        status = page.locator(".copy-status")
+        status.wait_for(state="visible")
+        text = page.inner_text("#citation")
+        if status.inner_text() == "Copied.":
+            assert page.evaluate("navigator.clipboard.readText()") == text
+        else:                                               # no clipboard access here: the text is selected
+            assert status.inner_text().startswith("Selected") and page.evaluate("getSelection().toString()") == text
+        assert "@misc{" in text and not watched.problems, watched.problems
     finally:
         watched.close()

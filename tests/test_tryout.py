@@ -37,6 +37,9 @@ def test_try_runs_the_top_combinations_and_writes_a_verdict_led_folder(write_sui
     assert len(section["wanted"]) == 2 and len(section["neighbours"]) == 3
     assert {c["status"] for c in section["curves"]} <= {"estimated", "never reaches", "too far", "no fit"}
     assert all((tmp_path / "mine" / c["figure"]).is_file() for c in section["curves"] if c.get("figure"))
+    page = (tmp_path / "mine" / "try.html").read_text(encoding="utf-8")
+    assert "Verdict on" in page and "How many minority samples" in page and page.count("<svg") >= 1
+    assert 'href="try.html"' in (tmp_path / "mine" / "index.html").read_text(encoding="utf-8")
     again = try_dataset(SERUM, suite_path=suite, board=tmp_path / "board", top=2, sizes=[16, 32, "all"],
                         out=tmp_path / "mine", progress=False)
     assert again.run.summary["cells"]["computed"] == 0                                 # stored cells reused

@@ -1,8 +1,9 @@
 """The serial backend: units run one at a time in this process, in the order handed over."""
 import warnings
 from collections import deque
+from contextlib import ExitStack
 
-from threadpoolctl import threadpool_limits
+from .worker import one_thread
 
 
 class Serial:
@@ -15,9 +16,9 @@ class Serial:
     def __init__(self, task, datasets, shared):
         self._task, self._datasets, self._shared = task, datasets, tuple(shared)
         self._queue = deque()
-        self._warnings = warnings.catch_warnings()
-        self._warnings.__enter__()
-        self._threads = threadpool_limits(1)
+        self._restore = ExitStack()
+        self._restore.enter_context(warnings.catch_warnings())
+        self._restore.enter_context(one_thread())
 
     def submit(self, unit, ref):
         self._queue.append((unit, ref))
@@ -36,5 +37,4 @@ class Serial:
 
     def close(self):
         self._queue.clear()
-        self._threads.restore_original_limits()
-        self._warnings.__exit__(None, None, None)
+        self._restore.close()

@@ -6,6 +6,7 @@ Warnings are collected by a ``showwarning`` hook keyed by thread, because ``warn
 swaps process-wide state and is not thread-safe (Python documentation, warnings module, "Testing
 Warnings"): on a Dask worker with several threads, each unit still gets its own warnings.
 """
+import os
 import threading
 import warnings
 from contextlib import contextmanager
@@ -22,16 +23,30 @@ _previous_hook = None
 
 
 def limit_threads():
-    """Limit the BLAS and OpenMP pools to one thread, once per thread (OpenMP's limit is per thread)."""
-    if not getattr(_thread, "limited", False):
+    """Limit the BLAS and OpenMP pools to one thread, once per thread (OpenMP's limit is per thread)
+    and process (a forked worker starts with its parent's thread-local state, not its limits)."""
+    if getattr(_thread, "limited", None) != os.getpid():
         threadpool_limits(1)
-        _thread.limited = True
+        _thread.limited = os.getpid()
+
+
+@contextmanager
+def one_thread():
+    """BLAS and OpenMP limited to one thread inside the block, as before it afterwards."""
+    with threadpool_limits(1):
+        _thread.limited = os.getpid()
+        try:
+            yield
+        finally:
+            _thread.limited = None
 
 
 def one_job(estimator):
-    """Set every ``n_jobs`` parameter of a scikit-learn-style object to 1 (results do not depend on it)."""
+    """Set every ``n_jobs`` parameter of a scikit-learn-style object that asks for more than one job
+    to 1 (results do not depend on it; None already means one job outside a joblib context)."""
     if hasattr(estimator, "get_params") and hasattr(estimator, "set_params"):
-        jobs = {name: 1 for name in estimator.get_params(deep=True) if name.split("__")[-1] == "n_jobs"}
+        jobs = {name: 1 for name, value in estimator.get_params(deep=True).items()
+                if name.split("__")[-1] == "n_jobs" and value not in (None, 1)}
         if jobs:
             estimator.set_params(**jobs)
     return estimator

@@ -5,14 +5,16 @@ JCAMP-DX is the IUPAC open exchange format for spectra (McDonald & Wilks 1988, A
 has a ``file`` column naming each file plus the label and optional group columns. Files are read
 with the ``jcamp`` package; every spectrum must share the first one's x axis (no silent interpolation).
 """
+import contextlib
 import hashlib
+import io
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 
 from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
+from .files import read_csv
 from .labels import encode
 from .params import Param, read_params
 
@@ -23,19 +25,34 @@ PARAMS = {"labels": Param(str, None, "the label table (CSV with a file column), 
 
 
 def read_spectrum(path):
-    """(x, y) of one JCAMP-DX file, or a DatasetError naming the file."""
+    """(x, y) of one JCAMP-DX file, or a DatasetError naming the file.
+
+    A data block shorter or longer than ##NPOINTS declares (a truncated file) and infinite values are
+    refused; the reader's own remarks on such files (it prints them) are kept off the terminal.
+    """
     import jcamp
     try:
-        record = jcamp.readfile(str(path))
+        with contextlib.redirect_stdout(io.StringIO()):
+            record = jcamp.readfile(str(path))
         x, y = np.asarray(record["x"], dtype=float), np.asarray(record["y"], dtype=float)
     except Exception as exc:   # the reader raises many kinds of errors on malformed files
-        raise DatasetError(f"{path}: not a readable JCAMP-DX spectrum ({type(exc).__name__}: {exc})") from None
-    if x.ndim != 1 or len(x) != len(y) or len(x) < 2:
+        message = " ".join(str(exc).split())
+        raise DatasetError(f"{path}: not a readable JCAMP-DX spectrum ({type(exc).__name__}: {message})") from None
+    if x.ndim != 1 or y.ndim != 1 or len(x) < 2:
         raise DatasetError(f"{path}: JCAMP-DX file holds no x/y data table")
+    if len(x) != len(y):
+        raise DatasetError(f"{path}: NPOINTS: the header declares {len(x)} points, the data block holds "
+                           f"{len(y)} values; the file looks truncated")
+    if not np.isfinite(x).all():
+        raise DatasetError(f"{path}: FIRSTX / LASTX: the x axis is not finite numbers")
+    if np.isinf(y).any():
+        raise DatasetError(f"{path}: the data block holds an infinite value")
     return x, y
 
 
 def load(ref):
+    if not ref.body.strip():
+        raise DatasetError(f"{ref.text}: no folder named; write jcamp:FOLDER?labels=labels.csv&label=COLUMN")
     folder = Path(ref.body)
     values = read_params(ref, PARAMS)
     if not folder.is_dir():
@@ -47,7 +64,7 @@ def load(ref):
     table_path = table_path if table_path.is_absolute() else folder / table_path
     if not table_path.is_file():
         raise DatasetError(f"{table_path}: no such label table")
-    table = pd.read_csv(table_path)
+    table = read_csv(table_path)
     for column in ["file", values["label"], values["group"]]:
         if column is not None and column not in table.columns:
             raise DatasetError(f"{table_path}: no column {column!r}{did_you_mean(column, table.columns)}")

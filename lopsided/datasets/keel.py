@@ -91,7 +91,7 @@ def _read_text(ref):
 def _read_local(path, name):
     wanted = f"{name}.dat"
     if path.is_dir():
-        found = sorted(p for p in path.rglob(wanted))
+        found = sorted(p for p in path.rglob("*.dat") if p.name == wanted)
         if not found:
             raise DatasetError(f"{path}: no {wanted} in this folder")
         return found[0].read_text(encoding="latin-1"), str(found[0]), file_sha256(found[0])[:16]

@@ -3,7 +3,9 @@
 KEEL: Alcalá-Fdez et al. (2011), J. Multiple-Valued Logic & Soft Computing 17:255, "KEEL data-mining
 software tool: data set repository". Handles what the imbalanced collection's files contain: labels
 and values with stray spaces, uneven spacing after commas, `<null>` or `?` for missing values, and
-nominal attributes, coded as integers in their declared order (the declared encoding).
+nominal attributes, coded as integers in their declared order (the declared encoding). A header that
+lies is refused with the line: a row with more or fewer values than attributes, a value outside its
+attribute's declared type or values (the class too), an attribute declared twice; so is an infinite value.
 """
 import re
 from dataclasses import dataclass
@@ -56,7 +58,7 @@ def parse_keel(text, where="<keel>", target=None):
         elif lowered.startswith("@attribute"):
             attributes.append(_attribute(stripped, f"{where}: line {number}"))
         elif lowered.startswith("@output"):
-            outputs = [v.strip() for v in stripped.split(None, 1)[1].split(",")]
+            outputs = [v.strip() for v in stripped.split(None, 1)[-1].split(",")]
         elif lowered.startswith("@input"):
             continue
         elif lowered.startswith("@data"):
@@ -70,6 +72,9 @@ def parse_keel(text, where="<keel>", target=None):
     if not rows:
         raise DatasetError(f"{where}: no data rows after @data")
     names = [name for name, _ in attributes]
+    twice = sorted({name for name in names if names.count(name) > 1})
+    if twice:
+        raise DatasetError(f"{where}: attribute {twice[0]!r} is declared twice; give each attribute its own name")
     if target is not None:
         if target not in names:
             raise DatasetError(f"{where}: no attribute {target!r}; attributes: {', '.join(names)}")
@@ -83,12 +88,22 @@ def parse_keel(text, where="<keel>", target=None):
         values = [v.strip() for v in row.split(",")]
         if len(values) != len(names):
             raise DatasetError(f"{where}: line {number}: {len(values)} values, the header declares {len(names)}")
-        labels.append(values[target])
+        labels.append(_label(values[target], attributes[target], where, number))
         for c, i in enumerate(features):
             X[r, c] = _value(values[i], attributes[i], where, number)
     levels = {c: attributes[i][1] for c, i in enumerate(features) if attributes[i][1] is not None}
     return KeelTable(relation, tuple(names[i] for i in features), tuple(sorted(levels)), levels, X,
                      np.array(labels, dtype=object))
+
+
+def _label(text, attribute, where, number):
+    name, levels = attribute
+    if text in MISSING:
+        raise DatasetError(f"{where}: line {number}: no value for the class attribute {name!r}")
+    if levels is not None and text not in levels:
+        raise DatasetError(f"{where}: line {number}: class {text!r} is not a declared value of {name!r}; "
+                           f"declared: {', '.join(levels)}")
+    return text
 
 
 def _value(text, attribute, where, number):
@@ -100,6 +115,10 @@ def _value(text, attribute, where, number):
             raise DatasetError(f"{where}: line {number}: {text!r} is not a declared value of {name!r}")
         return float(levels.index(text))
     try:
-        return float(text)
+        value = float(text)
     except ValueError:
         raise DatasetError(f"{where}: line {number}: {text!r} is not a number for attribute {name!r}") from None
+    if np.isinf(value):
+        raise DatasetError(f"{where}: line {number}: attribute {name!r}: {text!r} is infinite; "
+                           "write a number, or ? for a missing value")
+    return value

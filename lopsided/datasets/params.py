@@ -7,12 +7,13 @@ surfaces as one.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Any
 
 from ..errors import DatasetError, did_you_mean
 
-WORDS = {int: "a whole number", float: "a number", bool: "true or false", str: "text"}
+WORDS = {int: "a whole number", float: "a finite number", bool: "true or false", str: "text"}
 TRUE, FALSE = {"true", "1", "yes"}, {"false", "0", "no"}
 
 
@@ -35,7 +36,10 @@ def convert(text: str, kind: type) -> Any:
     if kind is int:
         return int(text.strip())
     if kind is float:
-        return float(text.strip())
+        value = float(text.strip())
+        if not math.isfinite(value):
+            raise ValueError(text)
+        return value
     return text
 
 

@@ -236,6 +236,26 @@ def _admix(pure, particle_class, group_of, purity, rng):
     return mixed
 
 
+# Parameter ranges the generator can honour: (lowest, highest, whether the lowest is allowed).
+RANGES = {"step": (0.1, 100.0, True), "snr": (0.0, float("inf"), False), "water": (0.0, float("inf"), True),
+          "weathering": (0.0, float("inf"), True), "ratio": (1.0, float("inf"), True),
+          "donors": (2, 100_000, True), "particles": (6, 100_000, True), "replicates": (1, 100, True),
+          "spectra": (1, 100, True), "effect": (-50.0, 50.0, True)}
+
+
+def _check_ranges(ref, params):
+    """One DatasetError naming the parameter when a value is outside what the generator can honour."""
+    if params["region"] not in REGIONS:
+        raise DatasetError(f"{ref.text}: region: {unknown('spectral region', params['region'], REGIONS)}")
+    for name, (low, high, low_ok) in RANGES.items():
+        value = params.get(name)
+        if value is None:
+            continue
+        if not ((value >= low if low_ok else value > low) and value <= high):
+            sign = ">=" if low_ok else ">"
+            raise DatasetError(f"{ref.text}: {name}: {value!r} is out of range; allowed: {sign} {low:g} and <= {high:g}")
+
+
 PRESETS = {
     "serum": (serum, {
         "ratio": Param(float, 10.0, "negative : positive donors"),
@@ -262,6 +282,7 @@ def load(ref):
         raise DatasetError(f"{ref.text}: {unknown('spectra preset', ref.body, PRESETS)}")
     make, declared, summary = PRESETS[ref.body]
     params = read_params(ref, {**COMMON, **declared})
+    _check_ranges(ref, params)
     X, y, classes, groups, group_word = make(params)
     axis = wavenumbers(params["region"], params["step"])
     positive = params.get("positive")

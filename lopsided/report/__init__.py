@@ -25,6 +25,7 @@ from ..specs import MethodSpec
 from .citations import citation_block
 from .figures import SPREAD, sweep
 from .heatmap import draw_rank_map, ranks_by_dataset
+from .pool import local_pool
 from .site import group_letters, top_group, write_site
 from .tables import COMBINED, method_matrix, per_dataset_rows, points_of, scores_table, with_titles
 from .winners import BANDS, winner_rows
@@ -59,40 +60,49 @@ def _slug(*parts):
     return "-".join(re.sub(r"[^A-Za-z0-9._-]+", "_", str(p)).strip("_") for p in parts)
 
 
-def build_sections(suite, scores, figures_dir, alpha=0.05, rope=0.01):
-    """Comparisons per protocol point, across all combinations and per learner; CD plots to figures_dir.
+def section_tasks(suite, scores, figures_dir, alpha=0.05, rope=0.01):
+    """One task per comparison: per protocol point, across all combinations and per learner.
 
     Every listed metric is compared at the first point, the headline metric (first listed) at the
     others. Within one learner, the suite's control resampler (default: the first listed; "none" for
-    no test) is the control of the Bonferroni-Dunn test.
+    no test) is the control of the Bonferroni-Dunn test. Each task is the argument tuple of
+    ``comparison_section``; CD plots go to ``figures_dir``.
     """
-    sections, stats = [], []
+    tasks = []
     control = _control(suite)
     learners = [s["label"] for s in suite["learners"]]
     for index, (ratio, size) in enumerate(points_of(scores, suite["protocol"])):
         point = f"ratio={ratio}, size={size}"
+        at_point = scores[(scores["ratio"] == ratio) & (scores["size"] == size)]
         for metric in suite["metrics"] if index == 0 else suite["metrics"][:1]:
             for learner in [None, *learners]:
                 view = "all combinations" if learner is None else f"resamplers with {learner}"
-                matrix = method_matrix(scores, metric, ratio, size, learner)
-                entry = {"point": point, "metric": metric, "view": view, "learner": learner}
-                try:
-                    result = compare(matrix, metric=metric, alpha=alpha, rope=rope,
-                                     control=control if learner is not None and control in matrix.columns else None)
-                except AnalysisError as exc:
-                    entry["note"] = str(exc)
-                    sections.append(entry)
-                    continue
-                stem = figures_dir / _slug("cd", metric, ratio, size, learner or "all")
-                draw(result, str(stem), title=f"{metric} at {point}: {view}")
-                entry.update(result=result, figure=f"figures/{stem.name}.svg", claims=claims(result),
-                             caption=caption(result, f"{metric}, training ratio {ratio}, size {size}, {view}"),
-                             table=_leaderboard_rows(result, scores, ratio, size, learner, suite["metrics"]))
-                stats.append({"metric": metric, "ratio": ratio, "size": size,
-                              "view": "all" if learner is None else "learner", "learner": learner,
-                              **result.as_json()})
-                sections.append(entry)
-    return sections, stats
+                matrix = method_matrix(at_point, metric, ratio, size, learner)
+                entry = {"point": point, "metric": metric, "view": view, "learner": learner,
+                         "ratio": ratio, "size": size}
+                tasks.append((entry, matrix, at_point if learner is None else at_point[at_point["learner"] == learner],
+                              suite["metrics"], alpha, rope,
+                              control if learner is not None and control in matrix.columns else None,
+                              figures_dir / _slug("cd", metric, ratio, size, learner or "all")))
+    return tasks
+
+
+def comparison_section(entry, matrix, rows, metrics, alpha, rope, control, stem):
+    """One comparison, its CD plot (``stem``.svg / .png), claims, caption and ranked table.
+
+    Returns (section entry, stats.json item or None when the comparison could not be made).
+    """
+    ratio, size, metric, view, learner = (entry[k] for k in ("ratio", "size", "metric", "view", "learner"))
+    try:
+        result = compare(matrix, metric=metric, alpha=alpha, rope=rope, control=control)
+    except AnalysisError as exc:
+        return {**entry, "note": str(exc)}, None
+    draw(result, str(stem), title=f"{metric} at {entry['point']}: {view}")
+    entry = {**entry, "result": result, "figure": f"figures/{stem.name}.svg", "claims": claims(result),
+             "caption": caption(result, f"{metric}, training ratio {ratio}, size {size}, {view}"),
+             "table": _leaderboard_rows(result, rows, ratio, size, learner, metrics)}
+    return entry, {"metric": metric, "ratio": ratio, "size": size, "view": "all" if learner is None else "learner",
+                   "learner": learner, **result.as_json()}
 
 
 def _control(suite):
@@ -163,25 +173,36 @@ def _rank_map(suite, scores, imbalance, figures_dir):
 SWEEP_METRICS = ("sensitivity", "specificity")   # recall of the minority class and of the rest
 
 
-def _sweeps(suite, scores, figures_dir):
-    """Every suite metric, then minority and majority recall, against ratio and against size."""
-    made = []
+def sweep_tasks(suite, scores, figures_dir):
+    """Every suite metric, then minority and majority recall, against ratio and against size: the
+    argument tuples of ``figures.sweep`` (read back with ``sweep_entry``)."""
+    tasks = []
     order = [s["label"] for s in suite["resamplers"]]
     metrics = list(dict.fromkeys([*suite["metrics"], *SWEEP_METRICS]))
     protocol = suite["protocol"]
     for axis, values, others in (("ratio", protocol["ratios"], protocol["sizes"]),
                                  ("size", protocol["sizes"], protocol["ratios"])):
         labels = [point_label(v) for v in values]
+        if len(labels) < 2:
+            continue
         for fixed in map(point_label, others):
+            other = "size" if axis == "ratio" else "ratio"
+            rows = scores[scores[other] == fixed]
             for metric in metrics:
-                stem = figures_dir / _slug("sweep", metric, axis, fixed)
-                drawn = sweep(scores, metric, axis, fixed, labels, order, str(stem))
-                if drawn is None:
-                    continue
-                made.append({"axis": axis, "fixed": fixed, "metric": metric, "datasets": drawn["datasets"],
-                             "left_out": drawn["left_out"],
-                             "figure": f"figures/{Path(drawn['paths'][0]).name}" if drawn["paths"] else None})
-    return made
+                if f"{metric}_mean" in rows.columns:
+                    tasks.append((rows, metric, axis, fixed, labels, order,
+                                  str(figures_dir / _slug("sweep", metric, axis, fixed))))
+    return tasks
+
+
+def sweep_entry(task, drawn):
+    """The template entry of one drawn sweep, or None when ``figures.sweep`` drew nothing."""
+    if drawn is None:
+        return None
+    _, metric, axis, fixed, _, _, _ = task
+    return {"axis": axis, "fixed": fixed, "metric": metric, "datasets": drawn["datasets"],
+            "left_out": drawn["left_out"],
+            "figure": f"figures/{Path(drawn['paths'][0]).name}" if drawn["paths"] else None}
 
 
 def leakage_rows(grouped_cells, random_cells, suite):
@@ -218,30 +239,50 @@ def skipped_summary(skipped):
             for (d, r, s), g in grouped]
 
 
-def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01):
-    """Write the leaderboard folder for ``suite`` (a suite dict) from its stored ``cells``."""
+def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01, extra_figures=()):
+    """Write the leaderboard folder for ``suite`` (a suite dict) from its stored ``cells``.
+
+    Comparisons, CD plots, sweeps and the rank map are computed on local processes (``pool.local_pool``).
+    Every template gets the report context: suite, summary (the manifest), caution, control, alpha, bands,
+    winners, per_dataset, spread, methods, citation, skipped, failures, warnings, metric_text, version,
+    leakage, scores (the scores table), imbalance (reference -> imbalance ratio), svg (inlines one of our
+    figures), sections (comparisons with result, figure, caption, claims, table), rank_map and sweeps;
+    each page of ``site.PAGES`` adds what its builder returns. ``extra_figures`` are (draw, args, path)
+    triples drawn as ``draw(*args, staging / path)`` before the pages are rendered (e.g. `lopsided try`'s
+    learning curves).
+    """
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=".report-", dir=out))
     try:
-        (staging / "figures").mkdir()
+        figures = staging / "figures"
+        figures.mkdir()
+        for draw_figure, args, relative in extra_figures:
+            draw_figure(*args, staging / relative)
         titled = with_titles(cells, _titles(suite))
         scores = scores_table(titled)
-        sections, stats = build_sections(suite, scores, staging / "figures", alpha, rope)
         imbalance = {d["reference"]: d["imbalance_ratio"] for d in summary.get("datasets", [])}
-        context = {
-            "suite": suite, "summary": summary, "caution": CAUTION, "sections": sections,
-            "control": _control(suite), "alpha": alpha, "bands": [label for _, _, label in BANDS],
-            "winners": winner_rows(scores, suite, imbalance, alpha, rope),
-            "per_dataset": per_dataset_tables(suite, scores, imbalance), "spread": SPREAD,
-            "methods": summary.get("methods", []), "citation": citation_block(suite, summary).text(),
-            "sweeps": _sweeps(suite, scores, staging / "figures"), "skipped": skipped_summary(skipped),
-            "failures": _notes(titled, "error"), "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
-            "leakage": summary.get("split_leakage", []), "scores": scores, "imbalance": imbalance,
-            "rank_map": _rank_map(suite, scores, imbalance, staging / "figures"),
-            "svg": lambda rel: _inline_svg(staging / rel),
-        }
-        (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context), encoding="utf-8")
+        with local_pool() as submit:
+            sweeps = [(t, submit(sweep, *t)) for t in sweep_tasks(suite, scores, figures)]
+            rank_map = submit(_rank_map, suite, scores, imbalance, figures)
+            sections = [submit(comparison_section, *t) for t in section_tasks(suite, scores, figures, alpha, rope)]
+            context = {
+                "suite": suite, "summary": summary, "caution": CAUTION, "control": _control(suite), "alpha": alpha,
+                "bands": [label for _, _, label in BANDS],
+                "winners": winner_rows(scores, suite, imbalance, alpha, rope),
+                "per_dataset": per_dataset_tables(suite, scores, imbalance), "spread": SPREAD,
+                "methods": summary.get("methods", []), "citation": citation_block(suite, summary).text(),
+                "skipped": skipped_summary(skipped), "failures": _notes(titled, "error"),
+                "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
+                "leakage": summary.get("split_leakage", []), "scores": scores, "imbalance": imbalance,
+                "svg": lambda rel: _inline_svg(staging / rel),
+            }
+            done = [f.result() for f in sections]
+            context.update(sections=[entry for entry, _ in done], rank_map=rank_map.result(),
+                           sweeps=[e for e in (sweep_entry(t, f.result()) for t, f in sweeps) if e is not None])
+        stats = [item for _, item in done if item is not None]
+        (staging / "leaderboard.md").write_text(ENV.get_template("leaderboard.md.j2").render(**context),
+                                                encoding="utf-8")
         write_site(ENV, staging, context)
         # 8 significant digits in the CSV files (the store keeps full precision)
         scores.to_csv(staging / "scores.csv", index=False, float_format="%.8g")

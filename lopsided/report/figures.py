@@ -10,9 +10,11 @@ import pandas as pd
 from matplotlib.figure import Figure
 from matplotlib.ticker import NullFormatter
 
-# Our palette: distinguishable in print and for the common colour-vision deficiencies.
-COLOURS = ["#1d2935", "#2f7f79", "#c8553d", "#d9a441", "#6c5b9b", "#4c8fc6", "#8a9a5b", "#b5678d",
-           "#7b6d5d", "#3f9e5d", "#a14a4a", "#5f7f9f"]
+# Our palette: every pair at least 13 CIE76 units apart in normal vision and under simulated deuteranopia
+# and protanopia (Machado et al. 2009; checked in tests/test_site.py); each series also has its own marker.
+COLOURS = ["#1d2935", "#2f7f79", "#c8553d", "#d9a441", "#6c5b9b", "#4c8fc6", "#0209db", "#0e0071",
+           "#0e5ed6", "#6e0403", "#74bd92", "#56bfc5"]
+MARKERS = ["o", "s", "^", "D", "v", "P", "X", "<", ">", "h", "*", "p"]
 SPREAD = "+/- one standard error of the mean over datasets (sd of the datasets' means / sqrt(N))"
 
 
@@ -88,10 +90,12 @@ def _panel(ax, part, axis, values, place, order):
         nudge = 1.07 ** (i - (len(drawn) - 1) / 2)     # word points side by side, not on top of each other
         if numeric:
             pts = line.loc[numeric].assign(x=[place[v] for v in numeric]).sort_values("x")
-            ax.plot(pts["x"], pts["mean"], marker="o", ms=3.5, lw=1.6, color=colour, label=resampler)
+            ax.plot(pts["x"], pts["mean"], marker=MARKERS[i % len(MARKERS)], ms=4, lw=1.6, color=colour,
+                    label=resampler)
             ax.fill_between(pts["x"], pts["mean"] - pts["sd"], pts["mean"] + pts["sd"], color=colour, alpha=0.07, lw=0)
         for word in words:
-            ax.errorbar([place[word] * nudge], [line.loc[word, "mean"]], yerr=[line.loc[word, "sd"]], fmt="o", ms=4.5,
+            ax.errorbar([place[word] * nudge], [line.loc[word, "mean"]], yerr=[line.loc[word, "sd"]],
+                        fmt=MARKERS[i % len(MARKERS)], ms=4.5,
                         mfc="white", color=colour, lw=0.9, capsize=2,
                         label=resampler if not numeric and word == words[0] else None)
     ticks = sorted(place[v] for v in values)

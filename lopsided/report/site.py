@@ -37,6 +37,7 @@ class Page:
     template: str
     title: str
     build: Callable[[dict], dict]
+    shown: Callable[[dict], bool] = lambda ctx: True     # pages only some folders have (e.g. `lopsided try`)
 
 
 def group_letters(result):
@@ -226,8 +227,13 @@ def cite_page(ctx):
     return {}
 
 
+def try_page(ctx):
+    return {"t": ctx["summary"]["tryout"]}
+
+
 PAGES = (
     Page("index.html", "overview.html.j2", "Overview", overview),
+    Page("try.html", "try.html.j2", "Your dataset", try_page, shown=lambda ctx: bool(ctx["summary"].get("tryout"))),
     Page("metrics.html", "metrics.html.j2", "Other metrics", other_metrics),
     Page("sweeps.html", "sweeps.html.j2", "Sweeps", sweeps),
     Page("ranks.html", "ranks.html.j2", "Rank map", rank_map),
@@ -245,6 +251,7 @@ def write_site(env, folder, ctx, pages=PAGES):
     for name in STATIC:
         with resources.as_file(resources.files("lopsided.report") / "static" / name) as path:
             shutil.copyfile(path, folder / "static" / name)
+    pages = [p for p in pages if p.shown(ctx)]
     menu = [(p.file, p.title) for p in pages]
     for page in pages:
         text = env.get_template(page.template).render(**ctx, **page.build(ctx), page=page, menu=menu)

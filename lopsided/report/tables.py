@@ -46,7 +46,8 @@ def method_matrix(scores, metric, ratio, size, learner=None):
     rows = scores[(scores["ratio"] == ratio) & (scores["size"] == size)]
     if learner is not None:
         rows = rows[rows["learner"] == learner]
-    value = rows[f"{metric}_mean"].where(rows["n_failed"] == 0, np.nan)
+    column = f"{metric}_mean"     # absent when every cell failed: then every value is missing
+    value = (rows[column] if column in rows else pd.Series(np.nan, index=rows.index)).where(rows["n_failed"] == 0)
     method = rows["resampler"] if learner is not None else rows["resampler"] + COMBINED + rows["learner"]
     table = pd.DataFrame({"dataset": rows["dataset"], "method": method, "value": value})
     return table.pivot(index="dataset", columns="method", values="value")

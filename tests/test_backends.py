@@ -1,0 +1,402 @@
+"""Backends: the same cells everywhere, each unit resampled once, thread-safe per-cell records,
+versions checked, batched whole-unit writes, clean stops on SIGINT / SIGTERM, lost Dask workers.
+
+The Dask tests start (and stop) their own clusters on 127.0.0.1 and are skipped, with the reason
+stated, only when dask[distributed] is not installed. The classes below are plugins the runs load
+by import path (``test_backends:Gated``); subprocesses and worker processes find them through PYTHONPATH.
+"""
+import json
+import os
+import signal
+import sqlite3
+import subprocess
+import sys
+import textwrap
+import threading
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.base import BaseEstimator, ClassifierMixin
+from sklearn.linear_model import LogisticRegression
+from sklearn.pipeline import make_pipeline
+from sklearn.preprocessing import StandardScaler
+from threadpoolctl import threadpool_info
+
+import lopsided.runner as runner
+from lopsided.backends import BackendError, choose, open_backend
+from lopsided.backends.worker import captured_warnings
+from lopsided.benchmark import load_all, run_suite
+from lopsided.cli import main
+from lopsided.resamplers.random import RandomUnder
+from lopsided.runner import plan, run_plan, run_unit
+from lopsided.store import Store
+from lopsided.suite import load_suite
+
+HERE = Path(__file__).parent
+METRICS = ["balanced_accuracy", "mcc", "g_mean", "roc_auc", "average_precision"]
+NO_DASK = "dask[distributed] is not installed (pip install 'lopsided[dask]')"
+
+
+class Gated(RandomUnder):
+    """Random under-sampling that appends its process id to the file ``log`` at every call; after the
+    first ``free`` calls (counted across processes), a call waits while the file ``gate`` exists."""
+
+    def __init__(self, balance=1.0, random_state=None, log="", gate="", free=0):
+        super().__init__(balance, random_state)
+        self.log, self.gate, self.free = log, gate, free
+
+    def fit_resample(self, X, y):
+        with open(self.log, "a") as handle:
+            handle.write(f"{os.getpid()}\n")
+        if len(Path(self.log).read_text().split()) > self.free:
+            waited = time.monotonic()
+            while self.gate and os.path.exists(self.gate) and time.monotonic() - waited < 120:
+                time.sleep(0.02)
+        return super().fit_resample(X, y)
+
+
+class Inspects(ClassifierMixin, BaseEstimator):
+    """Logistic regression that reports its n_jobs and the largest BLAS / OpenMP pool as a warning."""
+
+    def __init__(self, n_jobs=4, random_state=None):
+        self.n_jobs, self.random_state = n_jobs, random_state
+
+    def fit(self, X, y):
+        threads = max((pool["num_threads"] for pool in threadpool_info()), default=1)
+        warnings.warn(f"n_jobs={self.n_jobs} threads={threads}")
+        self.model_ = make_pipeline(StandardScaler(), LogisticRegression()).fit(X, y)
+        self.classes_ = self.model_.classes_
+        return self
+
+    def predict(self, X):
+        return self.model_.predict(X)
+
+    def predict_proba(self, X):
+        return self.model_.predict_proba(X)
+
+
+class Announces(Inspects):
+    """Warns with its own seed, pauses (so that units running in threads overlap), warns again."""
+
+    def fit(self, X, y):
+        warnings.warn(f"seed {self.random_state} first")
+        time.sleep(0.02)
+        warnings.warn(f"seed {self.random_state} second")
+        return super().fit(X, y)
+
+
+def write_suite(folder, name, resampler, learners='["logistic-regression", "test_backends:Inspects"]', repeats=2):
+    path = folder / f"{name}.toml"
+    path.write_text(textwrap.dedent(f"""
+        name = "{name}"
+        seed = 11
+        datasets = ["sklearn:wine?positive=2", "sklearn:iris?positive=1"]
+        resamplers = ["none", {json.dumps(resampler)}]
+        learners = {learners}
+        metrics = ["balanced_accuracy", "mcc"]
+        [protocol]
+        repeats = {repeats}
+        folds = 3
+        ratios = ["natural"]
+        sizes = ["all"]
+        """))
+    return path
+
+
+def run_cells(path, store, **options):
+    """Run a suite's plan into ``store`` (no leaderboard): (counts, the plan's stored cells)."""
+    suite = load_suite(path)
+    datasets = load_all(suite)
+    full = plan(suite, datasets)
+    db = Store(store)
+    try:
+        counts = run_plan(full, datasets, suite, db, progress=False, **options)
+        return counts, db.cells(full.keys)
+    finally:
+        db.close()
+
+
+def metric_text(cells):
+    """{cell key: its metrics as exact text} (float repr round-trips: equal text = identical numbers)."""
+    return {row["key"]: json.dumps([row[m] for m in METRICS]) for _, row in cells.iterrows()}
+
+
+def calls(log):
+    """Process ids of the resample calls logged so far (and the log emptied for the next run)."""
+    pids = log.read_text().split() if log.exists() else []
+    log.unlink(missing_ok=True)
+    return pids
+
+
+@pytest.fixture(scope="module")
+def folder(tmp_path_factory):
+    return tmp_path_factory.mktemp("backends")
+
+
+@pytest.fixture(scope="module")
+def counted(folder):
+    """A suite whose second resampler logs its calls, and its serial run (the reference)."""
+    log = folder / "calls.txt"
+    path = write_suite(folder, "counted", f"test_backends:Gated?log={log}")
+    reference = run_suite(path, out=folder / "serial", progress=False, backend="serial")
+    return path, log, reference, calls(log)
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    distributed = pytest.importorskip("distributed", reason=NO_DASK)
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=None) as local:
+        yield local
+
+
+def gated_units(path):
+    suite = load_suite(path)
+    return [u for u in plan(suite, load_all(suite)).units if u.resampler.name == "test_backends:Gated"]
+
+
+def test_serial_runs_resample_each_unit_once_and_limit_threads_and_jobs(counted):
+    path, _, reference, pids = counted
+    assert len(pids) == len(gated_units(path)) == 2 * 2 * 3          # datasets x repeats x folds
+    inspected = reference.cells[reference.cells["learner"] == "test_backends:Inspects"]
+    assert inspected["warning"].str.startswith("UserWarning: n_jobs=1 threads=1").all()
+
+
+def test_two_processes_give_identical_cells_and_resample_each_unit_once(counted, folder):
+    path, log, reference, _ = counted
+    result = run_suite(path, out=folder / "processes", progress=False, jobs=2)
+    pids = calls(log)
+    assert len(pids) == len(gated_units(path)) and len(set(pids)) == 2 and str(os.getpid()) not in pids
+    assert metric_text(result.cells) == metric_text(reference.cells)
+    inspected = result.cells[result.cells["learner"] == "test_backends:Inspects"]
+    assert inspected["warning"].str.startswith("UserWarning: n_jobs=1 threads=1").all()
+    # the files people read are the same too
+    read = [pd.read_csv(folder / run / "cells.csv") for run in ("serial", "processes")]
+    assert read[0][METRICS].equals(read[1][METRICS])
+
+
+def test_a_dask_cluster_gives_identical_cells_and_resamples_each_unit_once(counted, folder, cluster):
+    path, log, reference, _ = counted
+    result = run_suite(path, out=folder / "dask", progress=False, scheduler=cluster.scheduler_address)
+    pids = calls(log)
+    assert len(pids) == len(gated_units(path)) and str(os.getpid()) not in pids
+    assert metric_text(result.cells) == metric_text(reference.cells)
+    inspected = result.cells[result.cells["learner"] == "test_backends:Inspects"]
+    assert inspected["warning"].str.startswith("UserWarning: n_jobs=1 threads=1").all()
+    read = [pd.read_csv(folder / run / "cells.csv") for run in ("serial", "dask")]
+    assert read[0][METRICS].equals(read[1][METRICS])
+
+
+def test_a_lost_dask_worker_only_causes_its_units_to_run_again(folder, cluster):
+    distributed = pytest.importorskip("distributed", reason=NO_DASK)
+    log, gate = folder / "lost.txt", folder / "lost.gate"
+    path = write_suite(folder, "lost", f"test_backends:Gated?log={log}&gate={gate}&free=3",
+                       learners='["logistic-regression"]')
+    _, reference = run_cells(path, folder / "lost-serial.sqlite")       # no gate yet: nothing waits
+    calls(log)
+    with distributed.Client(cluster.scheduler_address, set_as_default=False) as client:
+        workers = set(client.run(os.getpid).values())
+    killed = []
+
+    def kill_a_waiting_worker():
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline and not killed:
+            pids = log.read_text().split() if log.exists() else []
+            if len(pids) > 3 and int(pids[-1]) in workers:      # a worker waits at the gate: kill it
+                killed.append(int(pids[-1]))
+                os.kill(killed[0], signal.SIGKILL)
+            time.sleep(0.02)
+        gate.unlink()
+
+    gate.touch()
+    killer = threading.Thread(target=kill_a_waiting_worker)
+    killer.start()
+    try:
+        _, cells = run_cells(path, folder / "lost.sqlite", scheduler=cluster.scheduler_address)
+    finally:
+        killer.join()
+    pids = calls(log)
+    units = len(gated_units(path))
+    assert killed and killed[0] in map(int, pids)
+    assert units < len(pids) <= units + 2              # its unit (and at most one more) ran again
+    assert (cells["status"] == "ok").all()
+    assert metric_text(cells) == metric_text(reference)
+
+
+def test_warnings_stay_with_their_cell_when_units_run_in_threads(folder):
+    """Python's warnings.catch_warnings is not thread-safe (Python documentation, warnings module):
+    each cell must still get exactly its own two warnings when two units run at once in threads."""
+    distributed = pytest.importorskip("distributed", reason=NO_DASK)
+    path = write_suite(folder, "threads", "random-under", learners='["test_backends:Announces"]', repeats=1)
+    _, serial = run_cells(path, folder / "threads-serial.sqlite")
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False, dashboard_address=None) as local:
+        _, threaded = run_cells(path, folder / "threads-dask.sqlite", scheduler=local.scheduler_address)
+    for cells in (serial, threaded):
+        own = [w.startswith(f"UserWarning: seed {seed} first (+") for w, seed in zip(cells["warning"], cells["seed"])]
+        assert all(own), cells["warning"].tolist()
+    assert dict(zip(serial["key"], serial["warning"])) == dict(zip(threaded["key"], threaded["warning"]))
+    assert metric_text(serial) == metric_text(threaded)
+
+
+def test_captured_warnings_are_keyed_by_thread():
+    together = threading.Barrier(2)
+    logs = {}
+
+    def cell(name):
+        with captured_warnings() as log:
+            together.wait()
+            warnings.warn(name)
+            together.wait()
+        logs[name] = [str(message) for _, message in log]
+
+    threads = [threading.Thread(target=cell, args=(name,)) for name in ("left", "right")]
+    for thread in threads:
+        thread.start()
+    for thread in threads:
+        thread.join()
+    assert logs == {"left": ["left"], "right": ["right"]}
+
+
+def test_a_result_from_other_code_is_refused(folder, monkeypatch):
+    path = write_suite(folder, "versions", "random-under", learners='["logistic-regression"]', repeats=1)
+    suite = load_suite(path)
+    datasets = load_all(suite)
+    real = runner.worker_versions
+
+    def older_resampler(unit, preprocessing):
+        ran = real(unit, preprocessing)
+        return {**ran, "resampler": "lopsided 0.0.1"} if unit.resampler.name == "random-under" else ran
+
+    monkeypatch.setattr(runner, "worker_versions", older_resampler)
+    db = Store(folder / "versions.sqlite")
+    try:
+        with pytest.raises(BackendError, match=r"resampler random-under: the worker ran 'lopsided 0\.0\.1', but the "
+                                               r"plan and its cell keys use 'lopsided 0\.1\.0'"):
+            run_plan(plan(suite, datasets), datasets, suite, db, progress=False)
+        kept = db.cells()
+    finally:
+        db.close()
+    assert (kept["resampler"] == "none").all()        # the refused unit's cells were not stored
+
+
+def test_the_driver_writes_whole_units_in_batches(folder, monkeypatch):
+    path = write_suite(folder, "batches", "random-under")
+    suite = load_suite(path)
+    datasets = load_all(suite)
+    monkeypatch.setattr(runner, "BATCH_CELLS", 10)
+    monkeypatch.setattr(runner, "BATCH_SECONDS", float("inf"))
+    db = Store(folder / "batches.sqlite")
+    batches = []
+    write = db.write_cells
+    monkeypatch.setattr(db, "write_cells", lambda rows: (batches.append(list(rows)), write(rows)))
+    try:
+        counts = run_plan(plan(suite, datasets), datasets, suite, db, progress=False)
+    finally:
+        db.close()
+    assert counts["computed"] == 2 * 2 * 3 * 2 * 2 == sum(map(len, batches))
+    # 10 cells or more per transaction (the last one: what is left), 2 learners = 2 cells per unit
+    assert [len(b) for b in batches] == [10, 10, 10, 10, 8]
+    for rows in batches:
+        per_unit = pd.Series([r["unit_key"] for r in rows]).value_counts()
+        assert (per_unit == 2).all()
+
+
+def test_backend_choices_and_their_errors():
+    assert choose("auto", 1, None) == "serial"
+    assert choose("auto", 3, None) == "processes"
+    assert choose("auto", 1, "tcp://10.0.0.5:8786") == "dask"
+    assert choose("dask", 2, None) == "dask"
+    with pytest.raises(BackendError, match="--backend: unknown backend 'dusk' \\(did you mean 'dask'\\?\\)"):
+        choose("dusk", 1, None)
+    with pytest.raises(BackendError, match="--jobs: --backend serial runs one unit at a time"):
+        choose("serial", 2, None)
+    with pytest.raises(BackendError, match="--scheduler: only --backend dask uses a scheduler"):
+        choose("processes", 2, "tcp://10.0.0.5:8786")
+    with pytest.raises(BackendError, match="--jobs: the cluster at tcp://10.0.0.5:8786 decides"):
+        choose("dask", 4, "tcp://10.0.0.5:8786")
+
+
+def test_an_unreachable_scheduler_is_one_clear_error(monkeypatch):
+    pytest.importorskip("distributed", reason=NO_DASK)
+    from lopsided.backends import cluster
+    monkeypatch.setattr(cluster, "CONNECT_SECONDS", 1)
+    with pytest.raises(BackendError, match="--scheduler tcp://127.0.0.1:9: no Dask scheduler answers there"):
+        open_backend("auto", run_unit, {}, scheduler="tcp://127.0.0.1:9")
+
+
+def test_without_dask_the_dask_backend_says_what_to_install(folder, monkeypatch, capsys):
+    monkeypatch.setitem(sys.modules, "distributed", None)          # import distributed -> ImportError
+    path = write_suite(folder, "nodask", "random-under", learners='["logistic-regression"]', repeats=1)
+    assert main(["run", str(path), "--out", str(folder / "nodask"), "--backend", "dask", "--quiet"]) == 2
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert lines == ["lopsided: error: --backend dask: Dask's distributed scheduler is not installed; "
+                     "install it with: pip install 'lopsided[dask]'"]
+
+
+@pytest.fixture(scope="module")
+def uninterrupted(folder):
+    """The gated suite's cells from a run nobody stops (the gate file is absent, so nothing waits)."""
+    log, gate = folder / "stop.txt", folder / "stop.gate"
+    path = write_suite(folder, "stopping", f"test_backends:Gated?log={log}&gate={gate}&free=4",
+                       learners='["logistic-regression"]')
+    _, cells = run_cells(path, folder / "stop-reference.sqlite")
+    calls(log)
+    return path, log, gate, cells
+
+
+def stored_cells(store):
+    if not store.exists():
+        return 0
+    try:
+        with sqlite3.connect(f"file:{store}?mode=ro", uri=True) as db:
+            return db.execute("SELECT COUNT(*) FROM cells").fetchone()[0]
+    except sqlite3.Error:          # its tables are not there yet
+        return 0
+
+
+def waiting(log, free):
+    """True once a resample call beyond the first ``free`` was logged: a unit waits at the gate."""
+    return log.exists() and len(log.read_text().split()) > free
+
+
+@pytest.mark.parametrize("backend, signal_name", [("serial", "SIGINT"), ("processes", "SIGTERM"),
+                                                  ("dask", "SIGINT")])
+def test_a_signal_stops_a_run_cleanly_and_a_rerun_completes_it(uninterrupted, folder, backend, signal_name):
+    if backend == "dask":
+        pytest.importorskip("distributed", reason=NO_DASK)
+    path, log, gate, reference = uninterrupted
+    out, store = folder / f"stop-{backend}", folder / f"stop-{backend}.sqlite"
+    gate.touch()        # after the first 4 resample calls, units wait: the run cannot finish before the signal
+    command = [sys.executable, "-m", "lopsided.cli", "run", str(path), "--out", str(out), "--store", str(store),
+               "--quiet", "--backend", backend] + ([] if backend == "serial" else ["--jobs", "2"])
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(HERE), os.environ.get("PYTHONPATH", "")])}
+    run = subprocess.Popen(command, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        # a unit waits at the gate, so earlier ones finished; the serial driver is that waiting worker,
+        # so it keeps them until the signal; other drivers write them within BATCH_SECONDS
+        deadline = time.monotonic() + 90
+        while not (waiting(log, 4) and (backend == "serial" or stored_cells(store))) and run.poll() is None \
+                and time.monotonic() < deadline:
+            time.sleep(0.05)
+        run.send_signal(getattr(signal, signal_name))
+        _, err = run.communicate(timeout=60)
+    finally:
+        gate.unlink(missing_ok=True)
+        if run.poll() is None:
+            run.kill()
+    calls(log)
+    assert run.returncode != 0
+    lines = err.strip().splitlines()
+    assert len(lines) == 1, err
+    kept = stored_cells(store)
+    assert 0 < kept < len(reference)
+    assert lines[0] == (f"lopsided: error: stopped by {signal_name}: {kept} of {len(reference)} planned cells are kept "
+                        f"in {store} ({kept} computed now); run the same command again to compute the other "
+                        f"{len(reference) - kept}")
+    counts, cells = run_cells(path, store)
+    assert (counts["reused"], counts["computed"]) == (kept, len(reference) - kept)
+    assert metric_text(cells) == metric_text(reference)
