@@ -1,7 +1,7 @@
 """The main job, end to end: suite file -> datasets -> plan -> store -> leaderboard folder."""
 import platform
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from importlib import metadata
 from pathlib import Path
 
@@ -10,8 +10,10 @@ import numpy as np
 from . import __version__
 from . import resamplers as resampler_registry
 from .analysis.complexity import meta_features
+from .dataset import Dataset
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError, unknown
+from .protocol import COHORT, TEST_DESIGNS, repeat_splits
 from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import MethodSpec, parse_method
@@ -105,7 +107,57 @@ def load_all(suite):
             raise SuiteError(suite.source, "datasets", f"{seen[data.checksum]} and {reference} hold the same "
                              "samples and labels (twin sets); keep one of them")
         seen[data.checksum] = reference
+    if suite.protocol.test not in TEST_DESIGNS and not suite.protocol.test.startswith("column:"):
+        datasets = {ref: with_external_test(suite, data) for ref, data in datasets.items()}
+    if suite.protocol.test not in TEST_DESIGNS:
+        for reference, data in datasets.items():       # checked once here, so planning cannot fail on it
+            try:
+                repeat_splits(data, suite.protocol, 0, 0)
+            except LopsidedError as exc:
+                raise SuiteError(suite.source, "protocol.test", f"{reference}: {exc}") from None
     return datasets
+
+
+def with_external_test(suite, data):
+    """The dataset with the suite's external test set appended, its rows marked ``COHORT`` = "test".
+
+    The external set must have the same classes in the same order and the same features (names and
+    spectral axis); no donor, specimen or particle may appear in both. Only one dataset per suite.
+    """
+    reference = suite.protocol.test
+    if len(suite.datasets) != 1:
+        raise SuiteError(suite.source, "protocol.test", "an external test set goes with exactly one dataset; "
+                         f"this suite lists {len(suite.datasets)}")
+    try:
+        other = load_dataset(reference, base=suite.folder)
+    except LopsidedError as exc:
+        raise SuiteError(suite.source, "protocol.test", str(exc)) from None
+    problems = []
+    if other.classes != data.classes:
+        problems.append(f"its classes {other.classes} differ from {data.classes} (use the same positive=)")
+    if other.X.shape[1] != data.X.shape[1] or other.feature_names != data.feature_names:
+        problems.append(f"its {other.X.shape[1]} features differ from the training data's {data.X.shape[1]}")
+    elif (other.axis is None) != (data.axis is None) or (
+            data.axis is not None and not np.allclose(other.axis, data.axis)):
+        problems.append("its feature axis differs from the training data's")
+    if (other.groups is None) != (data.groups is None):
+        problems.append("one of the two has groups and the other not")
+    elif data.groups is not None:
+        shared = np.intersect1d(np.asarray(data.groups).astype(str), np.asarray(other.groups).astype(str))
+        if len(shared):
+            problems.append(f"group {shared[0]!r} appears in both")
+    if problems:
+        raise SuiteError(suite.source, "protocol.test", f"{reference}: " + "; ".join(problems))
+    n, m = len(data.y), len(other.y)
+    return Dataset(
+        name=data.name, X=np.vstack([data.X, other.X]), y=np.concatenate([data.y, other.y]), classes=data.classes,
+        groups=None if data.groups is None else np.concatenate([np.asarray(data.groups).astype(str),
+                                                                np.asarray(other.groups).astype(str)]),
+        axis=data.axis, feature_names=data.feature_names, nominal=data.nominal,
+        provenance=replace(data.provenance, note=f"{data.provenance.note}; external test set {reference} "
+                           f"({m} rows)".lstrip("; ")),
+        annotations={COHORT: np.array(["train"] * n + ["test"] * m)},
+    )
 
 
 def refuse_unreachable(suite, full):

@@ -97,6 +97,8 @@ def parser():
     trial.add_argument("--sizes", help="training sizes for the learning curve, e.g. 20,40,80,all")
     trial.add_argument("--repeats", type=int, help="repeats (default: the suite's)")
     trial.add_argument("--folds", type=int, help="folds (default: the suite's)")
+    trial.add_argument("--test", default="folds", help="test design: folds (default), fixed, column:NAME=VALUE "
+                       "(a designated cohort) or a dataset reference (an external test set)")
     trial.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
     trial.add_argument("--out", help="folder to write (default results/try-<dataset>)")
     trial.add_argument("--quiet", action="store_true", help="no progress bar")
@@ -285,7 +287,7 @@ def _try(args):
     result = try_dataset(args.dataset, suite_path=args.suite, board=args.board, top=args.top, combos=tuple(args.combos),
                          targets=parse_targets(args.target), sizes=sizes, repeats=args.repeats, folds=args.folds,
                          out=args.out, jobs=args.jobs, progress=not args.quiet, rope=args.rope, alpha=args.alpha,
-                         command=args.command_line)
+                         command=args.command_line, test=args.test)
     print("\n".join(result.verdict))
     print(f"\nleaderboard: {result.out}/leaderboard.md and {result.out}/index.html")
 

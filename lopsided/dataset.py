@@ -43,13 +43,17 @@ class Dataset:
     axis: np.ndarray | None = None
     feature_names: tuple = field(default=())
     nominal: tuple = field(default=())     # indices of nominal (integer-coded) features
+    annotations: dict = field(default_factory=dict)   # per-row columns beside the features (site, year, ...)
 
     def __post_init__(self):
         if self.X.ndim != 2 or len(self.X) != len(self.y):
             raise ValueError(f"{self.name}: X must be 2-D with one row per label")
         if self.groups is not None and len(self.groups) != len(self.y):
             raise ValueError(f"{self.name}: groups must have one entry per row")
-        for array in (self.X, self.y, self.groups, self.axis):
+        for name, column in self.annotations.items():
+            if len(column) != len(self.y):
+                raise ValueError(f"{self.name}: annotation {name!r} must have one entry per row")
+        for array in (self.X, self.y, self.groups, self.axis, *self.annotations.values()):
             if isinstance(array, np.ndarray):
                 array.flags.writeable = False
 

@@ -22,6 +22,8 @@ from dataclasses import dataclass
 import numpy as np
 from sklearn.model_selection import StratifiedGroupKFold, StratifiedKFold
 
+from .errors import DatasetError
+
 
 def derive_seed(*parts):
     """A 32-bit seed from any JSON-able parts (stable across runs, machines and Python versions)."""
@@ -46,6 +48,50 @@ def fold_splits(dataset, folds, seed, use_groups=True, holdout=None):
         splitter = StratifiedKFold(n_splits=folds, shuffle=True, random_state=seed)
         pieces = splitter.split(dataset.X, dataset.y)
     return [(np.sort(train), np.sort(test)) for train, test in pieces]
+
+
+TEST_DESIGNS = ("folds", "fixed")   # plus "column:NAME=VALUE" and, resolved before planning, an external set
+COHORT = "lopsided_cohort"           # annotation marking the rows of an external test set ("test")
+
+
+def repeat_splits(dataset, protocol, seed_repeat, seed_fixed, use_groups=True):
+    """[(train rows, test rows)] of one repeat under the protocol's test design.
+
+    ``folds`` (default): k stratified (grouped) folds, or one holdout fold, drawn anew in every repeat.
+    ``fixed``: one stratified (grouped) test part drawn once (``seed_fixed``) and shared by every repeat;
+    repeats redraw only the nested training subsets, so they are not independent replications.
+    ``column:NAME=VALUE``: the rows whose annotation NAME equals VALUE are the test part (a designated
+    cohort); an external test set is merged in before planning and marked in the ``COHORT`` annotation.
+    A designated test part must share no group with the training rows.
+    """
+    design = protocol.test
+    if design == "folds":
+        return fold_splits(dataset, protocol.folds, seed_repeat, use_groups, protocol.holdout)
+    if design == "fixed":
+        share = protocol.holdout or 1.0 / protocol.folds
+        return fold_splits(dataset, protocol.folds, seed_fixed, use_groups, share)
+    if not design.startswith("column:"):        # an external test set, merged in by benchmark.load_all
+        design = f"column:{COHORT}=test"
+    return [designated_split(dataset, design)]
+
+
+def designated_split(dataset, design):
+    """(train rows, test rows) for ``column:NAME=VALUE``; DatasetError naming the problem."""
+    name, _, value = design.removeprefix("column:").partition("=")
+    if name not in dataset.annotations:
+        raise DatasetError(f"no column {name!r} beside the features (known: "
+                         f"{', '.join(sorted(dataset.annotations)) or 'none'}); for file: data leave it out of the "
+                         f"features with ?drop={name}")
+    marked = np.asarray(dataset.annotations[name]).astype(str) == value
+    test, train = np.flatnonzero(marked), np.flatnonzero(~marked)
+    if len(test) == 0 or len(train) == 0:
+        raise DatasetError(f"{design} selects {len(test)} of {len(marked)} rows; both parts need rows")
+    if dataset.groups is not None:
+        shared = np.intersect1d(np.asarray(dataset.groups)[test], np.asarray(dataset.groups)[train])
+        if len(shared):
+            raise DatasetError(f"group {shared[0]!r} has rows on both sides of {design}: a designated test "
+                             "cohort must share no donor, specimen or particle with the training rows")
+    return train, test
 
 
 @dataclass(frozen=True)

@@ -18,7 +18,7 @@ import sys
 import threading
 import time
 import traceback
-from contextlib import contextmanager
+from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass, field
 from functools import lru_cache
 from itertools import islice
@@ -28,15 +28,14 @@ from tqdm import tqdm
 
 from . import __version__
 from . import learners as learner_registry
+from . import preprocessing as preprocessing_registry
 from . import resamplers as resampler_registry
 from .backends import BackendError, open_backend
 from .backends.worker import captured_warnings, limit_threads, one_job
-from .backends.processes import start_method as _start_method  # noqa: F401  (report/pool.py starts its pool alike)
 from .errors import LopsidedError
 from .metrics import class_scores, score_cell
 from .plugins import code_version
-from . import preprocessing as preprocessing_registry
-from .protocol import Infeasible, class_orders, derive_seed, fold_splits, point_counts, point_label, point_rows
+from .protocol import Infeasible, class_orders, derive_seed, point_counts, point_label, point_rows, repeat_splits
 from .resamplers.base import check_resampled
 from .store import now
 
@@ -112,8 +111,8 @@ def plan(suite, datasets, split="grouped"):
         if split == "random" and data.groups is None:
             continue
         for repeat in range(protocol.repeats):
-            splits = fold_splits(data, protocol.folds, derive_seed(suite.seed, reference, "split", repeat),
-                                 use_groups=split == "grouped", holdout=protocol.holdout)
+            splits = repeat_splits(data, protocol, derive_seed(suite.seed, reference, "split", repeat),
+                                   derive_seed(suite.seed, reference, "split"), use_groups=split == "grouped")
             for fold, (train, test) in enumerate(splits):
                 orders = class_orders(data.y, train, derive_seed(suite.seed, reference, "order", repeat, fold))
                 available = {c: len(rows) for c, rows in orders.items()}
@@ -130,6 +129,8 @@ def plan(suite, datasets, split="grouped"):
                                   "suite_seed": suite.seed, "preprocessing": prep, "resampler": spec.canonical}
                         if protocol.holdout is not None:
                             coords["holdout"] = protocol.holdout
+                        if protocol.test != "folds":          # the default design keeps its keys unchanged
+                            coords["test"] = protocol.test
                         if split != "grouped":
                             coords["split"] = split
                         code = {**versions, "resampler": versions["resampler"][spec.canonical]}
@@ -185,7 +186,8 @@ def execute_unit(unit, data, preprocessing_specs, versions):
             "unit_key": unit.key, "n_train": len(y_train), "n_test": len(y_test),
             "n_train_minority": int((y_train == data.minority).sum())}
     code = {"lopsided": __version__, **{k: versions[k] for k in ("protocol", "preprocessing", "resampler")}}
-    ran = {c.key: json.dumps({**code, "learner": versions["learner"][c.learner.canonical]}, sort_keys=True)
+    ran = {c.key: json.dumps({**code, "learner": versions["learner"][c.learner.canonical]}, sort_keys=True,
+                             separators=(",", ":"))
            for c in unit.cells}
     stage = "preprocessing"
     try:
@@ -223,7 +225,7 @@ def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
         except Exception as exc:
             return {**row, "status": "failed", "error": f"learner {cell.learner.title}: {_error_text(exc)}",
                     "warning": _warning_text(caught), "finished_at": now()}
-    return {**row, "status": "ok", "metrics": metrics, "fit_seconds": fitted - started,
+    return {**row, "status": "ok", "metrics": json.dumps(metrics), "fit_seconds": fitted - started,
             "predict_seconds": done - fitted, "warning": _warning_text(caught), "finished_at": now()}
 
 
@@ -236,11 +238,12 @@ def _warning_text(caught):
     return f"{category.__name__}: {str(message).splitlines()[0]}{more}"
 
 
-def execute(units, backend):
+def execute(units, backend, stoppable=nullcontext):
     """Hand ``units`` to ``backend`` and yield, step by step, the [(unit, Outcome)] finished since the
-    last step (possibly none: the caller regains control at least every BATCH_SECONDS). The backend holds a few more units than it has slots, so no worker waits for the
-    driver and little is queued when a run stops; on leaving (done, an error, a signal) every queued
-    unit is cancelled."""
+    last step (possibly none: the caller regains control at least every BATCH_SECONDS). The backend
+    holds a few more units than it has slots, so no worker waits for the driver and little is queued
+    when a run stops; on leaving (done, an error, a signal) every queued unit is cancelled. Only the
+    wait for results runs inside ``stoppable()``, where a signal may cut in."""
     queue = iter(units)
     waiting = 0
     try:
@@ -250,7 +253,8 @@ def execute(units, backend):
                 waiting += 1
             if not waiting:
                 return
-            done = backend.finished(BATCH_SECONDS)
+            with stoppable():
+                done = backend.finished(BATCH_SECONDS)
             waiting -= len(done)
             yield done
     finally:
@@ -395,13 +399,8 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
         else:
             bar = LogProgress(total, suite.name, quiet=not progress)
         batch = _Batch(store)
-        steps = execute(todo, workers)
         try:
-            while True:
-                with signals.stoppable():
-                    done = next(steps, None)
-                if done is None:
-                    break
+            for done in execute(todo, workers, signals.stoppable):
                 for unit, outcome in done:
                     check_versions(unit, outcome.versions)
                     batch.add(outcome.rows)
@@ -414,7 +413,6 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
         except Stopped:
             pass
         finally:
-            steps.close()
             batch.write()
             workers.close()
             bar.close()

@@ -10,6 +10,7 @@ the ``runs`` table records which cell keys each run planned.
 import json
 import sqlite3
 from datetime import datetime, timezone
+from itertools import islice
 from pathlib import Path
 
 import pandas as pd
@@ -27,6 +28,8 @@ CELL_COLUMNS = (
     ("code_version", "TEXT"), ("seed", "INTEGER"), ("finished_at", "TEXT"),
 )
 NAMES = [name for name, _ in CELL_COLUMNS]
+METRICS_AT = NAMES.index("metrics")
+READ_CHUNK = 100_000
 
 
 def now():
@@ -106,9 +109,10 @@ class Store:
         return {row[0] for row in self._select("key", keys, status)}
 
     def write_cells(self, rows):
-        """Insert (or replace) the cells of whole work units in one transaction."""
+        """Insert (or replace) the cells of whole work units in one transaction. ``rows`` are dicts by
+        column name (missing ones are NULL), with the metrics already as JSON text (workers encode them)."""
         marks = ",".join("?" * len(NAMES))
-        values = [tuple(_cell_value(row, name) for name in NAMES) for row in rows]
+        values = [tuple(map(row.get, NAMES)) for row in rows]
         with self.db:
             self.db.executemany(f"INSERT OR REPLACE INTO cells VALUES ({marks})", values)
 
@@ -163,16 +167,21 @@ class Store:
         return json.loads(row[1]), json.loads(row[2] or "{}"), keys
 
     def cells(self, keys=None):
-        """Stored cells as a DataFrame, metrics expanded into columns; only ``keys`` when given."""
-        if keys is None:
-            table = pd.read_sql_query("SELECT * FROM cells", self.db)
-        else:
-            table = pd.DataFrame(list(self._select("*", keys)), columns=NAMES)
-        metrics = pd.DataFrame([json.loads(m) if isinstance(m, str) else {} for m in table["metrics"]],
-                               index=table.index)
-        return pd.concat([table.drop(columns="metrics"), metrics], axis=1)
+        """Stored cells as a DataFrame, metrics expanded into columns; only ``keys`` when given.
+
+        Read READ_CHUNK rows at a time, so that only one chunk's Python objects (row tuples, metric
+        dicts) exist at once: a million cells stay well under 2 GB (bench/perf/backends.py)."""
+        rows = self.db.execute("SELECT * FROM cells") if keys is None else self._select("*", keys)
+        parts = [_frame(chunk) for chunk in iter(lambda: list(islice(rows, READ_CHUNK)), [])]
+        if len(parts) <= 1:
+            return parts[0] if parts else _frame([])
+        # a numeric column that was all NULL in one chunk comes back as objects: infer it once more
+        return pd.concat(parts, ignore_index=True).infer_objects()
 
 
-def _cell_value(row, name):
-    value = row.get(name)
-    return json.dumps(value) if name == "metrics" and value is not None else value
+def _frame(rows):
+    """Rows of the cells table as a DataFrame, the metrics JSON expanded into one column per metric
+    (parsed as one JSON array: one parser call per chunk, metric names shared)."""
+    table = pd.DataFrame.from_records(rows, columns=NAMES, exclude=["metrics"], coerce_float=True)
+    parsed = json.loads("[" + ",".join(row[METRICS_AT] or "{}" for row in rows) + "]")
+    return pd.concat([table, pd.DataFrame(parsed, index=table.index)], axis=1)

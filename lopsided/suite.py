@@ -18,12 +18,13 @@ from .datasets.files import utf8_problem
 from .errors import LopsidedError, MethodError, SuiteError, did_you_mean, unknown
 from .metrics import METRICS
 from .plugins import accepted_params
+from .protocol import TEST_DESIGNS
 from .specs import MethodSpec, parse_method, parse_reference
 
 TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
             "preprocessing", "protocol", "store", "out", "control"}
 NO_CONTROL = "none"
-PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority"}
+PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority", "test"}
 RATIO_WORDS = ("natural", "balanced")
 METHOD_KEYS = {"name", "params", "label"}
 TOML_PLACE = re.compile(r"\s*\(at (?:line (\d+), column (\d+)|end of document)\)$")
@@ -41,6 +42,7 @@ class Protocol:
     repeats: int = 3
     folds: int = 5
     holdout: float | None = None
+    test: str = "folds"     # "folds", "fixed", "column:NAME=VALUE" or a dataset reference (external test set)
     ratios: tuple = ("natural",)
     sizes: tuple = ("all",)
     min_minority: int = 5
@@ -113,7 +115,7 @@ class Suite:
             "preprocessing": [spec_dict(s) for s in self.preprocessing],
             "metrics": list(self.metrics),
             "protocol": {"repeats": self.protocol.repeats, "folds": self.protocol.folds,
-                         "holdout": self.protocol.holdout,
+                         "holdout": self.protocol.holdout, "test": self.protocol.test,
                          "ratios": list(self.protocol.ratios), "sizes": list(self.protocol.sizes),
                          "min_minority": self.protocol.min_minority},
             "control": NO_CONTROL if self.control is None else self.control,
@@ -313,7 +315,24 @@ def _protocol(table, source):
     if holdout is not None and (isinstance(holdout, bool) or not isinstance(holdout, (int, float))
                                 or not 0 < holdout < 1):
         raise SuiteError(source, "protocol.holdout", f"{holdout!r} is not a test share between 0 and 1")
-    return Protocol(repeats, folds, holdout, tuple(ratios), tuple(sizes), min_minority)
+    return Protocol(repeats=repeats, folds=folds, holdout=holdout, ratios=tuple(ratios), sizes=tuple(sizes),
+                    min_minority=min_minority, test=_test_design(table.get("test", "folds"), source))
+
+
+def _test_design(value, source):
+    """'folds', 'fixed', 'column:NAME=VALUE' or an external dataset reference."""
+    if value in TEST_DESIGNS:
+        return value
+    if isinstance(value, str) and value.startswith("column:"):
+        name, sep, wanted = value.removeprefix("column:").partition("=")
+        if name and sep and wanted:
+            return value
+        raise SuiteError(source, "protocol.test", f"{value!r}: write column:NAME=VALUE, e.g. column:site=B")
+    if isinstance(value, str) and parse_reference(value).scheme in DATASETS:
+        return value
+    raise SuiteError(source, "protocol.test", f"{value!r} is not a test design; allowed: \"folds\" (default), "
+                     "\"fixed\" (one test part for every repeat), \"column:NAME=VALUE\" (a designated cohort) or "
+                     "a dataset reference (an external test set)")
 
 
 def _whole(value, source, field, lowest):

@@ -83,7 +83,7 @@ def _split(label, resamplers, learners, where):
     return resamplers[resampler], learners[learner]
 
 
-def try_suite(reference, base, combos, targets, sizes=None, repeats=None, folds=None):
+def try_suite(reference, base, combos, targets, sizes=None, repeats=None, folds=None, test="folds"):
     """A suite for one dataset: the combinations' resamplers (no resampling first) x their learners."""
     resamplers = {s.title: s for s in base.resamplers}
     resamplers.setdefault(BASELINE, MethodSpec(BASELINE))
@@ -100,7 +100,8 @@ def try_suite(reference, base, combos, targets, sizes=None, repeats=None, folds=
         "learners": [spec_dict(s) for s in dict.fromkeys(chosen_l)],
         "preprocessing": [spec_dict(s) for s in base.preprocessing], "metrics": metrics,
         "protocol": {"repeats": repeats or base.protocol.repeats, "folds": folds or base.protocol.folds,
-                     "ratios": ["natural"], "sizes": sizes or ["all"], "min_minority": base.protocol.min_minority},
+                     "ratios": ["natural"], "sizes": sizes or ["all"], "min_minority": base.protocol.min_minority,
+                     "test": test},
         "control": BASELINE,
     }
     return suite_from_dict(raw, source="lopsided try"), [f"{r.title}{COMBINED}{learner.title}" for r, learner in pairs]
@@ -110,7 +111,7 @@ def try_dataset(reference: str, suite_path: str | Path = "bench/quick.toml", boa
                 top: int = 5, combos: tuple[str, ...] = (), targets: dict[str, float] | None = None,
                 sizes: list | None = None, repeats: int | None = None, folds: int | None = None,
                 out: str | Path | None = None, jobs: int = 1, progress: bool = True, rope: float = 0.01,
-                alpha: float = 0.05, command: str | None = None) -> TryResult:
+                alpha: float = 0.05, command: str | None = None, test: str = "folds") -> TryResult:
     """Run ``reference`` against a stored leaderboard's best combinations and write a verdict-led folder.
 
     Parameters
@@ -127,6 +128,9 @@ def try_dataset(reference: str, suite_path: str | Path = "bench/quick.toml", boa
         {metric: score} the learning curves should reach (needs at least 3 training sizes).
     sizes : list, optional
         Training-set sizes for the learning curve (nested subsets), e.g. [40, 80, 160, "all"].
+    test : str
+        The test design: "folds" (repeated k-fold, default), "fixed", "column:NAME=VALUE" or an external
+        dataset reference. With one test part for every repeat, no test treats the repeats as independent.
 
     Returns
     -------
@@ -139,7 +143,7 @@ def try_dataset(reference: str, suite_path: str | Path = "bench/quick.toml", boa
         raise SuiteError("--top", str(top), "give a whole number >= 1")
     board = Path(board) if board else (base.path(base.out) or Path("results") / base.name)
     labels = list(combos) or top_combinations(board, base.headline, top)
-    suite, wanted = try_suite(reference, base, labels, targets, sizes, repeats, folds)
+    suite, wanted = try_suite(reference, base, labels, targets, sizes, repeats, folds, test)
     result = run_suite(suite, jobs=jobs, out=out or Path("results") / suite.name, progress=progress,
                        alpha=alpha, rope=rope, command=command)
     titles = {kind[:-1]: {s.canonical: s.title for s in getattr(suite, kind)} for kind in ("resamplers", "learners")}
@@ -168,6 +172,8 @@ def _largest_point(cells):
 def _head_to_head(cells, suite, rope, alpha):
     at, size = _largest_point(cells)
     metric = suite.headline
+    if suite.protocol.test != "folds":
+        return _fixed_test_summary(at, size, metric, suite.protocol.test)
     folds = at.pivot_table(index="method", columns=["repeat", "fold"], values=metric, aggfunc="first")
     folds = folds.dropna(axis=0, how="any")
     if len(folds) < 2:
@@ -180,6 +186,25 @@ def _head_to_head(cells, suite, rope, alpha):
         lines.insert(1, "Fold results of repeated cross-validation overlap in training data, so both tests correct for "
                         "their correlation (Nadeau & Bengio 2003; Corani & Benavoli 2015).")
     return {"verdict": lines, "table": table, "metric": metric, "size": size, "best": comparison.best}
+
+
+def _fixed_test_summary(at, size, metric, design):
+    """One test part for every repeat: means and spread over repeats, no significance test (the repeats share
+    their test rows, so they are not independent replications)."""
+    means = at.groupby(["method", "repeat"])[metric].mean().groupby("method").agg(["mean", "std", "count"])
+    means = means.sort_values("mean", ascending=False)
+    best = str(means.index[0])
+    table = [{"method": str(m), "mean": float(r["mean"]), "minus_best": None if m == best else
+              float(r["mean"] - means["mean"].iloc[0]), "t": None, "p": None, "p_best_better": None,
+              "p_equivalent": None, "p_method_better": None} for m, r in means.iterrows()]
+    lines = [f"On this dataset ({metric}, training size {size}, test design {design}): {best} has the best mean "
+             f"({means['mean'].iloc[0]:.4g}) over {int(means['count'].iloc[0])} repeats.",
+             "Every repeat is scored on the same test rows, so the repeats are not independent replications: the "
+             "spread between repeats reflects training-sample variability only, and no significance test is made "
+             "across them. Compare on the repeated k-fold design (the default) for tests of the difference.",
+             "These statements are about this one dataset: research evidence, not validation of a diagnostic or "
+             "safety method."]
+    return {"verdict": lines, "table": table, "metric": metric, "size": size, "best": best}
 
 
 def _neighbours(reference, board, metric, k=3):

@@ -17,7 +17,6 @@ import time
 import warnings
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 import pytest
 from sklearn.base import BaseEstimator, ClassifierMixin
@@ -39,6 +38,7 @@ from lopsided.suite import load_suite
 HERE = Path(__file__).parent
 METRICS = ["balanced_accuracy", "mcc", "g_mean", "roc_auc", "average_precision"]
 NO_DASK = "dask[distributed] is not installed (pip install 'lopsided[dask]')"
+QUIET = {"scheduler_kwargs": {"dashboard": False, "dashboard_address": "127.0.0.1:0"}}    # no port 8787
 
 
 class Gated(RandomUnder):
@@ -150,7 +150,7 @@ def counted(folder):
 def cluster():
     distributed = pytest.importorskip("distributed", reason=NO_DASK)
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                  dashboard_address=None) as local:
+                                  **QUIET) as local:
         yield local
 
 
@@ -233,7 +233,7 @@ def test_warnings_stay_with_their_cell_when_units_run_in_threads(folder):
     distributed = pytest.importorskip("distributed", reason=NO_DASK)
     path = write_suite(folder, "threads", "random-under", learners='["test_backends:Announces"]', repeats=1)
     _, serial = run_cells(path, folder / "threads-serial.sqlite")
-    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False, dashboard_address=None) as local:
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False, **QUIET) as local:
         _, threaded = run_cells(path, folder / "threads-dask.sqlite", scheduler=local.scheduler_address)
     for cells in (serial, threaded):
         own = [w.startswith(f"UserWarning: seed {seed} first (+") for w, seed in zip(cells["warning"], cells["seed"])]

@@ -4,7 +4,7 @@ A: `lopsided run` (serial, fresh store) on a fixed suite.
 B: a plain hand-written scikit-learn loop doing the same fits: same training/test rows, same resampled
    sets (same resampler classes and seeds), same learners, scikit-learn metric calls, no store.
 C: `lopsided run --jobs 2`.
-D, E: the execution phase alone (runner.execute, no store or report) with 1 and 2 processes.
+D, E: the execution phase alone (runner.execute on the serial and processes backends, no store or report).
 Each is timed ROUNDS times, interleaved, and medians are compared. Targets: A/B <= 1.10; A/C >= 1.7.
 The fixed costs of C (starting two workers, about 1 s; writing the report, about 1.5 s) are serial, so the
 end-to-end speed-up grows towards the execution-phase one (D/E) as suites grow.
@@ -21,10 +21,11 @@ from pathlib import Path
 
 from sklearn.metrics import average_precision_score, balanced_accuracy_score, matthews_corrcoef, roc_auc_score
 
+from lopsided.backends import open_backend
 from lopsided.benchmark import load_all, run_suite
 from lopsided.learners import make_learner
 from lopsided.resamplers import make_resampler
-from lopsided.runner import execute, plan
+from lopsided.runner import execute, plan, run_unit
 from lopsided.suite import load_suite
 
 SUITE = """
@@ -60,6 +61,16 @@ def plain_loop(suite, datasets, units):
     return results
 
 
+def execution_phase(units, datasets, suite, jobs):
+    """runner.execute alone: every unit run, results dropped."""
+    workers = open_backend("auto", run_unit, datasets, (tuple(suite.preprocessing),), jobs)
+    try:
+        for _ in execute(units, workers):
+            pass
+    finally:
+        workers.close()
+
+
 def timed(action):
     started = time.perf_counter()
     action()
@@ -88,7 +99,7 @@ def main():
             path, jobs=2, out=work / f"c{round_no}", progress=False)))
         for jobs in (1, 2):
             times[f"execution phase, {jobs} process{'es' if jobs > 1 else ''}"].append(timed(
-                lambda: execute(units, datasets, suite.preprocessing, jobs, lambda unit, rows: None)))
+                lambda: execution_phase(units, datasets, suite, jobs)))
         print("  round", round_no + 1, " ".join(f"{k}: {v[-1]:.1f}s" for k, v in times.items()), flush=True)
     median = {k: statistics.median(v) for k, v in times.items()}
     for name, value in median.items():

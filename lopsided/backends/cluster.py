@@ -2,11 +2,12 @@
 blocked algorithms and task scheduling"), local or remote.
 
 Without a scheduler address, a LocalCluster of ``jobs`` worker processes with one thread each starts
-on 127.0.0.1 (no dashboard) and stops with the run. With one, the running cluster is used as it is:
-its workers need lopsided and the suite's plugins at the driver's versions (each result names the
-versions its worker ran; the runner refuses a mismatch). Each dataset is scattered to every worker
-once; a task carries only its unit's coordinates. A worker lost mid-run only causes its units to run
-again elsewhere (Dask reschedules them; a unit that ends ``allowed-failures`` workers fails the run).
+on 127.0.0.1 (no dashboard; its small HTTP server on a free loopback port) and stops with the run.
+With one, the running cluster is used as it is: its workers need lopsided and the suite's plugins at
+the driver's versions (each result names the versions its worker ran; the runner refuses a mismatch).
+Each dataset is scattered to every worker once, when the backend opens; a task carries only its unit's
+coordinates. A worker lost mid-run only causes its units to run again elsewhere (Dask reschedules
+them; a unit that takes down more than ``allowed-failures`` workers fails the run).
 """
 import logging
 import time
@@ -28,12 +29,17 @@ class DaskCluster:
             raise BackendError(f"--backend dask: Dask's distributed scheduler is not installed; "
                                f"install it with: {INSTALL}") from None
         self._dask = distributed
-        self._task, self._datasets, self._shared = task, datasets, tuple(shared)
+        self._task, self._shared = task, tuple(shared)
         self._cluster = None
         if scheduler is None:
-            self._cluster = distributed.LocalCluster(
-                n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None,
-                silence_logs=logging.ERROR, env=THREAD_VARIABLES)
+            try:
+                self._cluster = distributed.LocalCluster(
+                    n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
+                    silence_logs=logging.ERROR, env=THREAD_VARIABLES,
+                    scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
+            except (OSError, RuntimeError) as exc:
+                raise BackendError(f"--backend dask: the local cluster did not start ({exc}); a script that runs a "
+                                   "suite needs the guard: if __name__ == '__main__':") from None
         try:
             self._client = distributed.Client(self._cluster or scheduler, timeout=CONNECT_SECONDS,
                                               set_as_default=False)
@@ -43,7 +49,8 @@ class DaskCluster:
                 raise BackendError(f"--backend dask: the local cluster did not answer ({exc})") from None
             raise BackendError(f"--scheduler {scheduler}: no Dask scheduler answers there ({exc}); start one "
                                "with: dask scheduler --host HOST --port PORT") from None
-        self._scattered = {}
+        self._scattered = {ref: self._client.scatter(data, broadcast=True, hash=False)
+                           for ref, data in datasets.items()}
         self._running = {}
         self._done = SimpleQueue()     # futures, put by Dask's callback thread as they finish
         self._slots, self._slots_read = 1, float("-inf")
@@ -57,8 +64,6 @@ class DaskCluster:
         return self._slots
 
     def submit(self, unit, ref):
-        if ref not in self._scattered:
-            self._scattered[ref] = self._client.scatter(self._datasets[ref], broadcast=True, hash=False)
         future = self._client.submit(self._task, unit, self._scattered[ref], *self._shared, pure=False)
         self._running[future] = unit
         future.add_done_callback(self._done.put)

@@ -2,7 +2,8 @@
 
 Datasets reach each worker once: inherited when workers are forked (Linux, while the driver runs no
 other thread: workers start in milliseconds), else passed once to each worker as it starts. Workers
-ignore SIGINT (a Ctrl-C in a terminal reaches the whole process group): the driver decides how to stop.
+ignore SIGINT (a Ctrl-C in a terminal reaches the whole process group): the driver decides how to stop,
+and abandons running units by terminating their workers (SIGTERM).
 """
 import os
 import signal
@@ -20,6 +21,7 @@ _STATE = {}
 
 def _start(task, datasets, shared):
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)     # a forked worker inherits the driver's handler
     os.environ.update(THREAD_VARIABLES)
     _STATE.update(task=task, datasets=datasets, shared=shared)
 

@@ -74,6 +74,7 @@ def load(ref):
         nominal=tuple(nominal),
         provenance=Provenance(source=str(path), version=file_sha256(path)[:16], family=path.stem),
         feature_names=tuple(str(c) for c in features.columns),
+        annotations={str(c): table[c].astype(str).to_numpy() for c in [group, *dropped] if c},
     )
 
 

@@ -239,6 +239,31 @@ def skipped_summary(skipped):
             for (d, r, s), g in grouped]
 
 
+def design_text(protocol):
+    """The protocol's test design in words."""
+    r, test = protocol["repeats"], protocol.get("test", "folds")
+    grouped = " (grouped where the data has groups)"
+    if test == "folds":
+        if protocol.get("holdout"):
+            return f"{r} x stratified holdout, test share {protocol['holdout']}, a new test part per repeat{grouped}"
+        return f"{r} x stratified {protocol['folds']}-fold cross-validation{grouped}"
+    if test == "fixed":
+        share = protocol.get("holdout") or 1 / protocol["folds"]
+        return f"one fixed stratified test part (share {share:.2g}){grouped} shared by all {r} repeats"
+    if test.startswith("column:"):
+        return f"a designated test cohort ({test.removeprefix('column:')}) shared by all {r} repeats"
+    return f"an external test set ({test}) shared by all {r} repeats"
+
+
+def design_warning(protocol):
+    """'' for cross-validation; otherwise why the repeats are not independent replications."""
+    if protocol.get("test", "folds") == "folds":
+        return ""
+    return ("Every repeat is scored on the same test rows, so repeats are not independent replications: their "
+            "spread shows training-sample variability only, and no statistic here treats them as independent "
+            "samples (comparisons across datasets use one mean per dataset).")
+
+
 def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01, extra_figures=()):
     """Write the leaderboard folder for ``suite`` (a suite dict) from its stored ``cells``.
 
@@ -276,6 +301,7 @@ def write_report(out, suite, cells, skipped, summary, alpha=0.05, rope=0.01, ext
                 "warnings": _notes(titled, "warning"), "metric_text": METRICS, "version": __version__,
                 "leakage": summary.get("split_leakage", []), "scores": scores, "imbalance": imbalance,
                 "svg": lambda rel: _inline_svg(staging / rel),
+                "design": design_text(suite["protocol"]), "design_warning": design_warning(suite["protocol"]),
             }
             done = [f.result() for f in sections]
             context.update(sections=[entry for entry, _ in done], rank_map=rank_map.result(),

@@ -1,0 +1,166 @@
+"""The backends side by side in one run: runner overhead, two processes, a Dask cluster, a million stored cells.
+
+A  runner overhead: plan + run_plan on the serial backend (fresh store, no report) against a plain
+   hand-written scikit-learn loop over the same resampled sets (runner_overhead.plain_loop: same rows,
+   resamplers, seeds and learners, scikit-learn metric calls, no store). Target <= 1.05.
+B  `lopsided run --jobs 2` (processes) over `--backend serial`, end to end (report included), on a suite
+   of >= 200 work units. Target >= 1.8.
+C  `--backend dask --jobs 2` (a LocalCluster of 2 single-threaded workers, started and stopped by the
+   run) over `--jobs 2`, end to end. Target <= 1.15.
+   A, B and C are timed ROUNDS times, interleaved, and their medians compared.
+D  the store: 1,000,000 synthetic cell rows written as the runner writes them (500 cells of whole units
+   per transaction), then read back and the scores table rebuilt (report.tables.scores_table), in a
+   fresh process: seconds and peak memory (targets < 60 s and < 2 GB).
+That each unit is resampled exactly once on every backend is a test (tests/test_backends.py), not a timing.
+
+    python bench/perf/backends.py [--rounds 3] [--part all|runs|store]
+"""
+import argparse
+import json
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import textwrap
+import time
+from pathlib import Path
+
+from runner_overhead import plain_loop, timed
+
+from lopsided.benchmark import load_all, run_suite
+from lopsided.runner import BATCH_CELLS, plan, run_plan
+from lopsided.store import Store
+from lopsided.suite import load_suite
+
+SUITE = """
+name = "perf-backends"
+seed = 5
+datasets = ["sklearn:digits?positive=1", "sklearn:digits?positive=7", "sklearn:wine?positive=0",
+            "spectra:serum?donors=80&ratio=4&region=fingerprint&step=8"]
+resamplers = ["none", "random-under", "smote"]
+learners = [{ name = "random-forest", params = { n_estimators = 30 } }, "logistic-regression"]
+metrics = ["balanced_accuracy", "mcc"]
+[protocol]
+repeats = 2
+folds = 5
+ratios = ["natural", 4]
+"""
+
+
+def runner_alone(path, work, tag):
+    """plan + run_plan on the serial backend into a fresh store (no report)."""
+    suite = load_suite(path)
+    datasets = load_all(suite)
+    db = Store(work / f"alone-{tag}.sqlite")
+    try:
+        run_plan(plan(suite, datasets), datasets, suite, db, progress=False, backend="serial")
+    finally:
+        db.close()
+
+
+def runs(rounds):
+    try:
+        import distributed  # noqa: F401  (C needs it)
+    except ImportError:
+        sys.exit("C needs dask[distributed]: pip install 'lopsided[dask]'")
+    work = Path(tempfile.mkdtemp(prefix="lopsided-backends-"))
+    path = work / "suite.toml"
+    path.write_text(textwrap.dedent(SUITE))
+    suite = load_suite(path)
+    datasets = load_all(suite)
+    units = plan(suite, datasets).units
+    print(f"suite: {len(units)} work units, {sum(len(u.cells) for u in units)} cells; {rounds} interleaved rounds",
+          flush=True)
+    times = {"runner, serial, no report": [], "plain scikit-learn loop": [], "end to end, serial": [],
+             "end to end, processes x2": [], "end to end, dask x2": []}
+    for r in range(rounds):
+        times["runner, serial, no report"].append(timed(lambda: runner_alone(path, work, r)))
+        times["plain scikit-learn loop"].append(timed(lambda: plain_loop(suite, datasets, units)))
+        times["end to end, serial"].append(timed(lambda: run_suite(
+            path, out=work / f"serial{r}", progress=False, backend="serial")))
+        times["end to end, processes x2"].append(timed(lambda: run_suite(
+            path, out=work / f"processes{r}", progress=False, jobs=2)))
+        times["end to end, dask x2"].append(timed(lambda: run_suite(
+            path, out=work / f"dask{r}", progress=False, jobs=2, backend="dask")))
+        print(f"  round {r + 1}: " + ", ".join(f"{k} {v[-1]:.1f} s" for k, v in times.items()), flush=True)
+    median = {k: statistics.median(v) for k, v in times.items()}
+    for name, value in median.items():
+        print(f"{name:>28}: median {value:.2f} s")
+    overhead = median["runner, serial, no report"] / median["plain scikit-learn loop"]
+    speedup = median["end to end, serial"] / median["end to end, processes x2"]
+    dask = median["end to end, dask x2"] / median["end to end, processes x2"]
+    print(f"A runner overhead (serial runner / plain loop):      {overhead:.3f}  (target <= 1.05)")
+    print(f"B two processes over serial, end to end:             {speedup:.2f}  (target >= 1.8)")
+    print(f"C Dask LocalCluster x2 over processes x2, end to end: {dask:.3f}  (target <= 1.15)")
+
+
+def synthetic_rows(n_units, learners=10):
+    """Rows shaped as the runner's (metrics as JSON text, as workers send them): 10 learners per unit,
+    metrics of a two-class dataset."""
+    code = json.dumps({"learner": "lopsided 0.1.0", "lopsided": "0.1.0", "preprocessing": [], "protocol": 1,
+                       "resampler": "lopsided 0.1.0"}, sort_keys=True, separators=(",", ":"))
+    for u in range(n_units):
+        dataset, rest = divmod(u, 2000)
+        point, rest = divmod(rest, 500)
+        fold, resampler = divmod(rest, 20)
+        rows = []
+        for learner in range(learners):
+            value = ((u * learners + learner) % 997) / 997
+            rows.append({
+                "key": f"{u:012d}{learner:012d}", "unit_key": f"{u:024d}", "dataset": f"keel:set{dataset:03d}",
+                "dataset_checksum": f"{dataset:016x}", "preprocessing": "[]", "ratio": ["natural", "2", "4", "8"][point],
+                "size": "all", "repeat": fold // 5, "fold": fold % 5, "resampler": f"resampler-{resampler:02d}",
+                "learner": f"learner-{learner}", "status": "ok", "error": None, "warning": None,
+                "metrics": json.dumps({m: value for m in ("balanced_accuracy", "g_mean", "mcc", "f1_minority",
+                                                          "average_precision", "roc_auc", "sensitivity",
+                                                          "specificity", "recall:negative", "recall:positive")}),
+                "n_train": 400, "n_train_minority": 40, "n_resampled": 720, "n_test": 100,
+                "resample_seconds": 0.01, "fit_seconds": 0.05, "predict_seconds": 0.001, "code_version": code,
+                "seed": u * learners + learner, "finished_at": "2026-12-03T08:00:00+00:00"})
+        yield rows
+
+
+def store(cells=1_000_000):
+    """Part D, meant for a fresh process (peak memory is the process's own)."""
+    from lopsided.report.tables import scores_table
+    path = Path(tempfile.mkdtemp(prefix="lopsided-store-")) / "store.sqlite"
+    db = Store(path)
+    written, batch = 0.0, []
+    for rows in synthetic_rows(cells // 10):      # made outside the clock: workers make rows, the driver writes
+        batch.extend(rows)
+        if len(batch) >= BATCH_CELLS:
+            written += timed(lambda: db.write_cells(batch))
+            batch = []
+    if batch:
+        written += timed(lambda: db.write_cells(batch))
+    peak_written = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    started = time.perf_counter()
+    table = db.cells()
+    read = time.perf_counter() - started
+    scores = scores_table(table)
+    rebuilt = time.perf_counter() - started
+    db.close()
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"D store: {len(table):,} cells written in {written:.1f} s ({BATCH_CELLS} per transaction, peak memory "
+          f"{peak_written:.0f} MB); read back in {read:.1f} s and {len(scores):,} score rows rebuilt, "
+          f"{rebuilt:.1f} s in all; {written + rebuilt:.1f} s (target < 60 s); peak memory {peak:.0f} MB "
+          f"(target < 2048 MB); store file {path.stat().st_size / 2**20:.0f} MB")
+
+
+def main():
+    parser = argparse.ArgumentParser()
+    parser.add_argument("--rounds", type=int, default=3)
+    parser.add_argument("--part", choices=("all", "runs", "store", "store-here"), default="all")
+    args = parser.parse_args()
+    if args.part in ("all", "runs"):
+        runs(args.rounds)
+    if args.part in ("all", "store"):       # a fresh process, so that its peak memory is the store's alone
+        subprocess.run([sys.executable, __file__, "--part", "store-here"], check=True)
+    if args.part == "store-here":
+        store()
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
