@@ -138,7 +138,7 @@ def with_external_test(suite, data):
     if other.X.shape[1] != data.X.shape[1] or other.feature_names != data.feature_names:
         problems.append(f"its {other.X.shape[1]} features differ from the training data's {data.X.shape[1]}")
     elif (other.axis is None) != (data.axis is None) or (
-            data.axis is not None and not np.allclose(other.axis, data.axis)):
+            data.axis is not None and other.axis is not None and not np.allclose(other.axis, data.axis)):
         problems.append("its feature axis differs from the training data's")
     if (other.groups is None) != (data.groups is None):
         problems.append("one of the two has groups and the other not")

@@ -316,8 +316,9 @@ def test_backend_choices_and_their_errors():
         choose("serial", 2, None)
     with pytest.raises(BackendError, match="--scheduler: only --backend dask uses a scheduler"):
         choose("processes", 2, "tcp://10.0.0.5:8786")
-    with pytest.raises(BackendError, match="--jobs: the cluster at tcp://10.0.0.5:8786 decides"):
-        choose("dask", 4, "tcp://10.0.0.5:8786")
+    for backend in ("dask", "auto"):
+        with pytest.raises(BackendError, match="--jobs: the cluster at tcp://10.0.0.5:8786 decides"):
+            choose(backend, 4, "tcp://10.0.0.5:8786")
 
 
 def test_an_unreachable_scheduler_is_one_clear_error(monkeypatch):

@@ -10,7 +10,10 @@ import pytest
 from scipy import stats
 
 from lopsided.analysis.friedman_null import (
-    PermutationP, chi2_adequate, exact_null, friedman_permutation_p,
+    PermutationP,
+    chi2_adequate,
+    exact_null,
+    friedman_permutation_p,
 )
 from lopsided.errors import LopsidedError
 

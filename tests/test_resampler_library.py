@@ -236,7 +236,8 @@ def test_entry_point_plugins_are_discovered(tmp_path, monkeypatch):
     (info / "entry_points.txt").write_text("[lopsided.resamplers]\nhalves = plugins_for_tests:Halves\n")
     monkeypatch.syspath_prepend(str(tmp_path))
     from lopsided.resamplers import describe
-    assert ("halves", "plugin from plugins_for_tests:Halves") in describe()
+    row = next(r for r in describe() if r.name == "halves")
+    assert (row.text, row.origin) == ("from plugins_for_tests:Halves", "plugin halves-demo 0.1")
     assert resolve("halves").__name__ == "Halves"
     assert "plugins_for_tests" in sys.modules
 

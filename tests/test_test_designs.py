@@ -1,7 +1,6 @@
 """Test designs: one fixed test part for every repeat, a designated cohort, an external test set."""
 import numpy as np
 import pandas as pd
-import pytest
 
 from lopsided.benchmark import load_all, run_suite
 from lopsided.cli import main

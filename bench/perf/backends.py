@@ -39,7 +39,7 @@ seed = 5
 datasets = ["sklearn:digits?positive=1", "sklearn:digits?positive=7", "sklearn:wine?positive=0",
             "spectra:serum?donors=80&ratio=4&region=fingerprint&step=8"]
 resamplers = ["none", "random-under", "smote"]
-learners = [{ name = "random-forest", params = { n_estimators = 30 } }, "logistic-regression"]
+learners = [{ name = "random-forest", params = { n_estimators = 60 } }, "logistic-regression"]
 metrics = ["balanced_accuracy", "mcc"]
 [protocol]
 repeats = 2

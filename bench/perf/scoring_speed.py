@@ -17,8 +17,7 @@ os.environ.setdefault("OMP_NUM_THREADS", "1")
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 import numpy as np  # noqa: E402
-from sklearn.metrics import (average_precision_score, confusion_matrix, f1_score,  # noqa: E402
-                             matthews_corrcoef, roc_auc_score)
+from sklearn.metrics import average_precision_score, confusion_matrix, f1_score, matthews_corrcoef, roc_auc_score  # noqa: E402
 
 from lopsided.metrics import score_cell  # noqa: E402
 

@@ -11,8 +11,8 @@ import re
 import sys
 import tempfile
 import time
-from unittest import mock
 from pathlib import Path
+from unittest import mock
 
 import pandas as pd
 

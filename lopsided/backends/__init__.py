@@ -26,7 +26,7 @@ class BackendError(LopsidedError):
 def choose(backend, jobs, scheduler):
     """The backend name to use: ``auto`` is dask with a scheduler, processes for jobs > 1, else serial."""
     if backend == "auto":
-        return "dask" if scheduler else "processes" if jobs > 1 else "serial"
+        backend = "dask" if scheduler else "processes" if jobs > 1 else "serial"
     if backend not in BACKENDS:
         raise BackendError(f"--backend: {unknown('backend', backend, BACKENDS)}")
     if scheduler and backend != "dask":

@@ -19,11 +19,15 @@ from .worker import THREAD_VARIABLES
 CONNECT_SECONDS = 10
 CLOSE_SECONDS = 10
 INSTALL = "pip install 'lopsided[dask]'"
+# Workers we start do not sample their own stacks every 10 ms (Dask's built-in profiler, for its
+# dashboard, which we do not start): on a busy core it competes with the unit for the GIL.
+QUIET_WORKERS = {"distributed.worker.profile.enabled": False}
 
 
 class DaskCluster:
     def __init__(self, task, datasets, shared, jobs, scheduler):
         try:
+            import dask
             import distributed
         except ImportError:
             raise BackendError(f"--backend dask: Dask's distributed scheduler is not installed; "
@@ -33,10 +37,11 @@ class DaskCluster:
         self._cluster = None
         if scheduler is None:
             try:
-                self._cluster = distributed.LocalCluster(
-                    n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
-                    silence_logs=logging.ERROR, env=THREAD_VARIABLES,
-                    scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
+                with dask.config.set(QUIET_WORKERS):
+                    self._cluster = distributed.LocalCluster(
+                        n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
+                        silence_logs=logging.ERROR, env=THREAD_VARIABLES,
+                        scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
             except (OSError, RuntimeError) as exc:
                 raise BackendError(f"--backend dask: the local cluster did not start ({exc}); a script that runs a "
                                    "suite needs the guard: if __name__ == '__main__':") from None
@@ -87,7 +92,8 @@ class DaskCluster:
         if isinstance(exc, self._dask.KilledWorker):
             raise BackendError(f"{unit}: every Dask worker that ran it ended ({exc}); does it need more memory "
                                "than a worker has?")
-        raise BackendError(f"{unit}: the Dask task {future.status} outside lopsided's own error handling"
+        what = "failed" if future.status == "error" else f"was {future.status}"
+        raise BackendError(f"{unit}: the Dask task {what} outside lopsided's own error handling"
                            + (f" ({type(exc).__name__}: {exc})" if exc else "")
                            + "; every worker needs lopsided and the suite's plugins, at the driver's versions")
 

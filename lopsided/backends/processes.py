@@ -19,7 +19,23 @@ from .worker import THREAD_VARIABLES
 _STATE = {}
 
 
+def die_with_parent():
+    """Ask Linux to send this worker SIGTERM when the process that started it dies (prctl PR_SET_PDEATHSIG), so
+    a killed driver leaves no orphans; exit at once if the parent is already gone."""
+    if not sys.platform.startswith("linux"):
+        return
+    import ctypes
+    parent = os.getppid()
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, signal.SIGTERM, 0, 0, 0)    # 1 = PR_SET_PDEATHSIG
+    except (OSError, AttributeError):
+        return
+    if os.getppid() != parent:
+        os._exit(1)
+
+
 def _start(task, datasets, shared):
+    die_with_parent()
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)     # a forked worker inherits the driver's handler
     os.environ.update(THREAD_VARIABLES)

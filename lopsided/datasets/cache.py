@@ -16,7 +16,6 @@ import platformdirs
 
 from ..errors import DatasetError
 
-
 DOWNLOADS = ContextVar("lopsided_downloads_allowed", default=True)
 
 

@@ -9,7 +9,7 @@ from concurrent.futures import Future, ProcessPoolExecutor
 from contextlib import contextmanager
 from multiprocessing import get_context
 
-from ..backends.processes import start_method
+from ..backends.processes import die_with_parent, start_method
 
 
 def usable_cores():
@@ -34,5 +34,5 @@ def local_pool(workers=None):
     if workers <= 1:
         yield run_now
         return
-    with ProcessPoolExecutor(workers, mp_context=get_context(start_method())) as pool:
+    with ProcessPoolExecutor(workers, mp_context=get_context(start_method()), initializer=die_with_parent) as pool:
         yield pool.submit
