@@ -20,7 +20,6 @@ from lopsided.report import ENV, write_report
 from lopsided.report.figures import COLOURS
 from lopsided.report.heatmap import RAMP, draw_rank_map, ranks_by_dataset
 from lopsided.report.site import PAGES, Page, group_letters, score_rows, top_group, verdict, write_site
-
 from lopsided.suite import load_suite
 
 RUN_PAGES = [p for p in PAGES if p.file != "try.html"]   # what a `lopsided run` folder has

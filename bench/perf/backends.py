@@ -2,12 +2,17 @@
 
 A  runner overhead: plan + run_plan on the serial backend (fresh store, no report) against a plain
    hand-written scikit-learn loop over the same resampled sets (runner_overhead.plain_loop: same rows,
-   resamplers, seeds and learners, scikit-learn metric calls, no store). Target <= 1.05.
-B  `lopsided run --jobs 2` (processes) over `--backend serial`, end to end (report included), on a suite
-   of >= 200 work units. Target >= 1.8.
-C  `--backend dask --jobs 2` (a LocalCluster of 2 single-threaded workers, started and stopped by the
-   run) over `--jobs 2`, end to end. Target <= 1.15.
-   A, B and C are timed ROUNDS times, interleaved, and their medians compared.
+   resamplers, seeds and learners, scikit-learn metric calls, no store), both with one BLAS / OpenMP
+   thread, as every worker has. Target <= 1.05.
+B  `lopsided run --jobs 2` (processes) over `lopsided run --backend serial`, end to end: each a fresh
+   `lopsided run` process (start, planning, units, store, report) on a suite of >= 200 work units.
+   Target >= 1.8.
+C  `lopsided run --backend dask --jobs 2` (a LocalCluster of 2 single-threaded workers, started and
+   stopped by the run) over `lopsided run --jobs 2`, end to end. Target <= 1.15.
+   A, B and C are timed ROUNDS times, interleaved, and their medians compared. On a shared machine the
+   wall-clock ratios move with other people's load, so the CPU seconds each run spent (this process, or
+   the `lopsided run` process, and their worker processes) are printed too: their ratios show the
+   overhead itself, whatever the load.
 D  the store: 1,000,000 synthetic cell rows written as the runner writes them (500 cells of whole units
    per transaction), then read back and the scores table rebuilt (report.tables.scores_table), in a
    fresh process: seconds and peak memory (targets < 60 s and < 2 GB).
@@ -27,8 +32,9 @@ import time
 from pathlib import Path
 
 from runner_overhead import plain_loop, timed
+from threadpoolctl import threadpool_limits
 
-from lopsided.benchmark import load_all, run_suite
+from lopsided.benchmark import load_all
 from lopsided.runner import BATCH_CELLS, plan, run_plan
 from lopsided.store import Store
 from lopsided.suite import load_suite
@@ -48,6 +54,22 @@ ratios = ["natural", 4]
 """
 
 
+def measured(action):
+    """(wall seconds, CPU seconds of this process and its finished child processes) of action()."""
+    def cpu():
+        return sum(u.ru_utime + u.ru_stime for u in (resource.getrusage(resource.RUSAGE_SELF),
+                                                      resource.getrusage(resource.RUSAGE_CHILDREN)))
+    started, spent = time.perf_counter(), cpu()
+    action()
+    return time.perf_counter() - started, cpu() - spent
+
+
+def command_line(path, out, *options):
+    """A fresh `lopsided run` process, as a user starts it."""
+    subprocess.run([sys.executable, "-m", "lopsided.cli", "run", str(path), "--out", str(out), "--quiet", *options],
+                   check=True, stdout=subprocess.DEVNULL)
+
+
 def runner_alone(path, work, tag):
     """plan + run_plan on the serial backend into a fresh store (no report)."""
     suite = load_suite(path)
@@ -59,7 +81,12 @@ def runner_alone(path, work, tag):
         db.close()
 
 
-def runs(rounds):
+def one_thread_loop(suite, datasets, units):
+    with threadpool_limits(1):
+        plain_loop(suite, datasets, units)
+
+
+def timed_runs(rounds):
     try:
         import distributed  # noqa: F401  (C needs it)
     except ImportError:
@@ -72,27 +99,32 @@ def runs(rounds):
     units = plan(suite, datasets).units
     print(f"suite: {len(units)} work units, {sum(len(u.cells) for u in units)} cells; {rounds} interleaved rounds",
           flush=True)
-    times = {"runner, serial, no report": [], "plain scikit-learn loop": [], "end to end, serial": [],
-             "end to end, processes x2": [], "end to end, dask x2": []}
+    runner, plain = "runner, serial, no report", "plain scikit-learn loop"
+    serial, processes, dask = "end to end, serial", "end to end, processes x2", "end to end, dask x2"
+    actions = {
+        runner: lambda r: runner_alone(path, work, r),
+        plain: lambda r: one_thread_loop(suite, datasets, units),
+        serial: lambda r: command_line(path, work / f"serial{r}", "--backend", "serial"),
+        processes: lambda r: command_line(path, work / f"processes{r}", "--jobs", "2"),
+        dask: lambda r: command_line(path, work / f"dask{r}", "--backend", "dask", "--jobs", "2"),
+    }
+    wall, cpu = {name: [] for name in actions}, {name: [] for name in actions}
     for r in range(rounds):
-        times["runner, serial, no report"].append(timed(lambda: runner_alone(path, work, r)))
-        times["plain scikit-learn loop"].append(timed(lambda: plain_loop(suite, datasets, units)))
-        times["end to end, serial"].append(timed(lambda: run_suite(
-            path, out=work / f"serial{r}", progress=False, backend="serial")))
-        times["end to end, processes x2"].append(timed(lambda: run_suite(
-            path, out=work / f"processes{r}", progress=False, jobs=2)))
-        times["end to end, dask x2"].append(timed(lambda: run_suite(
-            path, out=work / f"dask{r}", progress=False, jobs=2, backend="dask")))
-        print(f"  round {r + 1}: " + ", ".join(f"{k} {v[-1]:.1f} s" for k, v in times.items()), flush=True)
-    median = {k: statistics.median(v) for k, v in times.items()}
-    for name, value in median.items():
-        print(f"{name:>28}: median {value:.2f} s")
-    overhead = median["runner, serial, no report"] / median["plain scikit-learn loop"]
-    speedup = median["end to end, serial"] / median["end to end, processes x2"]
-    dask = median["end to end, dask x2"] / median["end to end, processes x2"]
-    print(f"A runner overhead (serial runner / plain loop):      {overhead:.3f}  (target <= 1.05)")
-    print(f"B two processes over serial, end to end:             {speedup:.2f}  (target >= 1.8)")
-    print(f"C Dask LocalCluster x2 over processes x2, end to end: {dask:.3f}  (target <= 1.15)")
+        for name, action in actions.items():
+            seconds, spent = measured(lambda: action(r))
+            wall[name].append(seconds)
+            cpu[name].append(spent)
+        print(f"  round {r + 1}: " + ", ".join(f"{k} {v[-1]:.1f} s" for k, v in wall.items()), flush=True)
+    median = {k: statistics.median(v) for k, v in wall.items()}
+    used = {k: statistics.median(v) for k, v in cpu.items()}
+    for name in actions:
+        print(f"{name:>28}: median {median[name]:.2f} s, CPU {used[name]:.2f} s")
+    print(f"A runner overhead, serial runner / plain loop:     {median[runner] / median[plain]:.3f} (target <= 1.05); "
+          f"CPU {used[runner] / used[plain]:.3f}")
+    print(f"B two processes over serial, end to end:           {median[serial] / median[processes]:.2f}  "
+          f"(target >= 1.8); CPU spent, processes / serial {used[processes] / used[serial]:.3f}")
+    print(f"C Dask LocalCluster x2 / processes x2, end to end: {median[dask] / median[processes]:.3f} "
+          f"(target <= 1.15); CPU {used[dask] / used[processes]:.3f}")
 
 
 def synthetic_rows(n_units, learners=10):
@@ -154,7 +186,7 @@ def main():
     parser.add_argument("--part", choices=("all", "runs", "store", "store-here"), default="all")
     args = parser.parse_args()
     if args.part in ("all", "runs"):
-        runs(args.rounds)
+        timed_runs(args.rounds)
     if args.part in ("all", "store"):       # a fresh process, so that its peak memory is the store's alone
         subprocess.run([sys.executable, __file__, "--part", "store-here"], check=True)
     if args.part == "store-here":

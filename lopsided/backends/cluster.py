@@ -10,6 +10,7 @@ coordinates. A worker lost mid-run only causes its units to run again elsewhere 
 them; a unit that takes down more than ``allowed-failures`` workers fails the run).
 """
 import logging
+import multiprocessing
 import time
 from queue import Empty, SimpleQueue
 
@@ -22,6 +23,22 @@ INSTALL = "pip install 'lopsided[dask]'"
 # Workers we start do not sample their own stacks every 10 ms (Dask's built-in profiler, for its
 # dashboard, which we do not start): on a busy core it competes with the unit for the GIL.
 QUIET_WORKERS = {"distributed.worker.profile.enabled": False}
+
+
+def _local_cluster(dask, distributed, jobs, task):
+    """A LocalCluster of ``jobs`` single-threaded worker processes on 127.0.0.1, no dashboard. Where the
+    platform has the 'forkserver' start method, workers fork from one server process that imported Dask
+    and the task's module (scikit-learn, ...) once, instead of each importing everything anew."""
+    settings = dict(QUIET_WORKERS)
+    forkserver = "forkserver" in multiprocessing.get_all_start_methods()
+    if forkserver:
+        settings["distributed.worker.multiprocessing-method"] = "forkserver"
+    with dask.config.set(settings):
+        if forkserver:     # after Dask set its own preload list (once per process), so that ours stands
+            distributed.utils.get_mp_context().set_forkserver_preload(["distributed", task.__module__])
+        return distributed.LocalCluster(
+            n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", silence_logs=logging.ERROR,
+            env=THREAD_VARIABLES, scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
 
 
 class DaskCluster:
@@ -37,11 +54,7 @@ class DaskCluster:
         self._cluster = None
         if scheduler is None:
             try:
-                with dask.config.set(QUIET_WORKERS):
-                    self._cluster = distributed.LocalCluster(
-                        n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1",
-                        silence_logs=logging.ERROR, env=THREAD_VARIABLES,
-                        scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
+                self._cluster = _local_cluster(dask, distributed, jobs, task)
             except (OSError, RuntimeError) as exc:
                 raise BackendError(f"--backend dask: the local cluster did not start ({exc}); a script that runs a "
                                    "suite needs the guard: if __name__ == '__main__':") from None
