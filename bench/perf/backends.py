@@ -28,6 +28,7 @@ import subprocess
 import sys
 import tempfile
 import textwrap
+import threading
 import time
 from pathlib import Path
 
@@ -55,13 +56,39 @@ ratios = ["natural", 4]
 
 
 def measured(action):
-    """(wall seconds, CPU seconds of this process and its finished child processes) of action()."""
-    def cpu():
-        return sum(u.ru_utime + u.ru_stime for u in (resource.getrusage(resource.RUSAGE_SELF),
-                                                      resource.getrusage(resource.RUSAGE_CHILDREN)))
-    started, spent = time.perf_counter(), cpu()
-    action()
-    return time.perf_counter() - started, cpu() - spent
+    """(wall seconds, CPU seconds of this process and every process under it) of action(). Worker
+    processes may belong to a fork server rather than to us, so the process tree is sampled every 0.1 s
+    (psutil, installed with Dask) and each process's last reading counted."""
+    import psutil
+    me = psutil.Process()
+
+    def readings():
+        found = {}
+        for process in me.children(recursive=True):
+            try:
+                found[process.pid] = sum(process.cpu_times()[:2])      # its own user + system time
+            except psutil.Error:
+                pass
+        return found
+
+    before, last, done = readings(), {}, threading.Event()
+
+    def sample():
+        while not done.wait(0.1):
+            last.update(readings())
+
+    sampler = threading.Thread(target=sample)
+    own, started = sum(me.cpu_times()[:2]), time.perf_counter()
+    sampler.start()
+    try:
+        action()
+    finally:
+        done.set()
+        sampler.join()
+    seconds = time.perf_counter() - started
+    last.update(readings())
+    tree = sum(value - before.get(pid, 0.0) for pid, value in last.items())
+    return seconds, sum(me.cpu_times()[:2]) - own + tree
 
 
 def command_line(path, out, *options):
