@@ -118,7 +118,11 @@ def timed_runs(rounds):
         import distributed  # noqa: F401  (C needs it)
     except ImportError:
         sys.exit("C needs dask[distributed]: pip install 'lopsided[dask]'")
-    work = Path(tempfile.mkdtemp(prefix="lopsided-backends-"))
+    with tempfile.TemporaryDirectory(prefix="lopsided-backends-") as folder:
+        timed_runs_in(Path(folder), rounds)
+
+
+def timed_runs_in(work, rounds):
     path = work / "suite.toml"
     path.write_text(textwrap.dedent(SUITE))
     suite = load_suite(path)
@@ -182,8 +186,12 @@ def synthetic_rows(n_units, learners=10):
 
 def store(cells=1_000_000):
     """Part D, meant for a fresh process (peak memory is the process's own)."""
+    with tempfile.TemporaryDirectory(prefix="lopsided-store-") as folder:
+        store_in(Path(folder) / "store.sqlite", cells)
+
+
+def store_in(path, cells):
     from lopsided.report.tables import scores_table
-    path = Path(tempfile.mkdtemp(prefix="lopsided-store-")) / "store.sqlite"
     db = Store(path)
     written, batch = 0.0, []
     for rows in synthetic_rows(cells // 10):      # made outside the clock: workers make rows, the driver writes

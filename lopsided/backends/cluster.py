@@ -5,11 +5,13 @@ Without a scheduler address, a LocalCluster of ``jobs`` worker processes with on
 on 127.0.0.1 (no dashboard; its small HTTP server on a free loopback port) and stops with the run.
 With one, the running cluster is used as it is: its workers need lopsided and the suite's plugins at
 the driver's versions (each result names the versions its worker ran; the runner refuses a mismatch).
-Each dataset is scattered to every worker once, when the backend opens; a task carries only its unit's
-coordinates. A worker lost mid-run only causes its units to run again elsewhere (Dask reschedules
-them; a unit that takes down more than ``allowed-failures`` workers fails the run).
+Each dataset is scattered to every worker once, when the backend opens; a task carries only the
+coordinates of its units (a few at a time once their duration is known, so that Dask's own cost per
+task stays small). A worker lost mid-run only causes its tasks' units to run again elsewhere (Dask
+reschedules them; a task that takes down more than ``allowed-failures`` workers fails the run).
 """
 import logging
+import math
 import multiprocessing
 import time
 from queue import Empty, SimpleQueue
@@ -20,6 +22,11 @@ from .worker import THREAD_VARIABLES
 CONNECT_SECONDS = 10
 CLOSE_SECONDS = 10
 INSTALL = "pip install 'lopsided[dask]'"
+# Dask's own cost per task (scheduling, messages) is about a millisecond on a quiet machine (Dask
+# documentation, from memory); we measured 30 ms on a busy 2-core one. So units go in groups of about
+# TASK_SECONDS of work (at most MAX_GROUP), sized from the units' measured times.
+TASK_SECONDS = 0.5
+MAX_GROUP = 16
 # Workers we start do not sample their own stacks every 10 ms (Dask's built-in profiler, for its
 # dashboard, which we do not start): on a busy core it competes with the unit for the GIL.
 QUIET_WORKERS = {"distributed.worker.profile.enabled": False}
@@ -39,6 +46,16 @@ def _local_cluster(dask, distributed, jobs, task):
         return distributed.LocalCluster(
             n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", silence_logs=logging.ERROR,
             env=THREAD_VARIABLES, scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
+
+
+def _run_group(task, group, datasets, *shared):
+    """One Dask task: several units, one after the other; [(seconds, result)] in their order."""
+    timed = []
+    for unit, ref in group:
+        started = time.perf_counter()
+        result = task(unit, datasets[ref], *shared)
+        timed.append((time.perf_counter() - started, result))
+    return timed
 
 
 class DaskCluster:
@@ -69,24 +86,42 @@ class DaskCluster:
                                "with: dask scheduler --host HOST --port PORT") from None
         self._scattered = {ref: self._client.scatter(data, broadcast=True, hash=False)
                            for ref, data in datasets.items()}
-        self._running = {}
+        self._running = {}             # future -> [(unit, ref)] it runs
+        self._group = []               # (unit, ref) waiting to be sent as one task
         self._done = SimpleQueue()     # futures, put by Dask's callback thread as they finish
-        self._slots, self._slots_read = 1, float("-inf")
+        self._threads, self._threads_read = 1, float("-inf")
+        self._unit_seconds = None      # running mean of a unit's time on a worker
 
     @property
     def slots(self):
-        """Threads across the cluster's workers (re-read every few seconds: workers may come and go)."""
-        if time.monotonic() - self._slots_read > 5:
-            self._slots = max(1, sum(self._client.nthreads().values()))
-            self._slots_read = time.monotonic()
-        return self._slots
+        """Units that can run at once: threads across the workers (re-read every few seconds, as workers
+        may come and go) times the units per task."""
+        if time.monotonic() - self._threads_read > 5:
+            self._threads = max(1, sum(self._client.nthreads().values()))
+            self._threads_read = time.monotonic()
+        return self._threads * self._group_size()
+
+    def _group_size(self):
+        """Units per task: 1 until a unit's time is known, then about TASK_SECONDS of work per task."""
+        if self._unit_seconds is None:
+            return 1
+        return max(1, min(MAX_GROUP, math.ceil(TASK_SECONDS / max(self._unit_seconds, 1e-3))))
 
     def submit(self, unit, ref):
-        future = self._client.submit(self._task, unit, self._scattered[ref], *self._shared, pure=False)
-        self._running[future] = unit
+        self._group.append((unit, ref))
+        if len(self._group) >= self._group_size():
+            self._send()
+
+    def _send(self):
+        group, self._group = self._group, []
+        datasets = {ref: self._scattered[ref] for _, ref in group}
+        future = self._client.submit(_run_group, self._task, group, datasets, *self._shared, pure=False)
+        self._running[future] = group
         future.add_done_callback(self._done.put)
 
     def finished(self, timeout):
+        if self._group:                # a part-filled task goes now: nothing may wait for more units
+            self._send()
         try:
             done = [self._done.get(timeout=timeout)]
         except Empty:
@@ -97,10 +132,15 @@ class DaskCluster:
         for future in done:
             if future.status != "finished":
                 self._fail(self._running[future], future)
-        units = [self._running.pop(future) for future in done]
-        return list(zip(units, self._client.gather(done)))
+        results = []
+        for future, timed in zip(done, self._client.gather(done)):
+            for (unit, _), (seconds, result) in zip(self._running.pop(future), timed):
+                self._unit_seconds = seconds if self._unit_seconds is None else 0.9 * self._unit_seconds + 0.1 * seconds
+                results.append((unit, result))
+        return results
 
-    def _fail(self, unit, future):
+    def _fail(self, group, future):
+        unit = group[0][0] if len(group) == 1 else f"{group[0][0]} (and {len(group) - 1} more units in its task)"
         exc = future.exception() if future.status == "error" else None
         if isinstance(exc, self._dask.KilledWorker):
             raise BackendError(f"{unit}: every Dask worker that ran it ended ({exc}); does it need more memory "
@@ -116,8 +156,10 @@ class DaskCluster:
         cancelled = list(self._running)
         if cancelled:
             self._client.cancel(cancelled)
+        units = len(self._group) + sum(len(group) for group in self._running.values())
         self._running.clear()
-        return len(cancelled)
+        self._group = []
+        return units
 
     def close(self):
         self.cancel()
