@@ -8,7 +8,6 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__
-from . import resamplers as resampler_registry
 from .analysis.complexity import meta_features
 from .dataset import Dataset
 from .datasets import load_dataset
@@ -16,7 +15,7 @@ from .errors import LopsidedError, StoreError, SuiteError, unknown
 from .protocol import COHORT, TEST_DESIGNS, repeat_splits
 from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
-from .specs import MethodSpec, parse_method
+from .specs import MethodSpec
 from .store import Store, now
 from .suite import added_resampler, check_writable, load_suite, spec_dict, suite_from_dict
 
@@ -44,19 +43,6 @@ def versions() -> dict[str, str | None]:
     return found
 
 
-def extra_resamplers(texts):
-    """--add-resampler values -> MethodSpecs, each checked to resolve."""
-    specs = []
-    for text in texts:
-        spec = parse_method(text)
-        try:
-            resampler_registry.resolve(spec.name)
-        except LopsidedError as exc:
-            raise SuiteError("--add-resampler", text, str(exc)) from None
-        specs.append(spec)
-    return specs
-
-
 def with_added_methods(suite, db, add=(), drop=(), command=""):
     """The suite file's resamplers plus every one the suite gained in ``db`` and keeps.
 
@@ -71,7 +57,7 @@ def with_added_methods(suite, db, add=(), drop=(), command=""):
             raise SuiteError("--drop-resampler", label, f"is listed in the suite file {suite.source}; remove it there")
         if label not in stored:
             raise SuiteError("--drop-resampler", label, unknown("added resampler", label, stored))
-    new = extra_resamplers(add)
+    new = [added_resampler(text) for text in add]
     for spec, text in zip(new, add):
         if spec.title in own or spec in suite.resamplers:
             raise SuiteError("--add-resampler", text, f"{spec.title!r} is already listed in the suite file {suite.source}")
@@ -160,9 +146,11 @@ def with_external_test(suite, data):
     )
 
 
-def refuse_unreachable(suite, full):
+def refuse_unreachable(suite, datasets):
     """One clear error when no protocol point can be cut from any dataset: there would be nothing to rank.
-    (A dataset without a feasible point among others that have some is listed under skipped points.)"""
+    (A dataset without a feasible point among others that have some is listed under skipped points.)
+    Feasibility does not depend on the methods, so one resampler and one learner are planned."""
+    full = plan(replace(suite, resamplers=suite.resamplers[:1], learners=suite.learners[:1]), datasets)
     if full.units or not full.skipped:
         return
     first = full.skipped[0]
@@ -193,7 +181,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
     store_path = Path(store or base.path(base.store) or out / "store.sqlite")
     started, clock = now(), time.perf_counter()
     datasets = load_all(base)                 # bad data fails here, before the store exists or changes
-    refuse_unreachable(base, plan(base, datasets))
+    refuse_unreachable(base, datasets)
     db = Store(store_path)
     try:
         suite, origins = with_added_methods(base, db, add_resamplers, drop_resamplers, command)

@@ -147,7 +147,7 @@ def test_winner_rows_split_the_natural_point_by_imbalance_band():
     by_band = {r["band"]: r for r in rows}
     assert by_band["IR < 3"]["n"] == 4 and by_band["3 <= IR < 9"]["n"] == 6 and by_band["IR >= 9"]["n"] == 5
     assert all(r["best"] == "best + lr" for r in rows)
-    assert by_band["3 <= IR < 9"]["p"] < 0.05 and "is best" in by_band["3 <= IR < 9"]["claim"]
+    assert by_band["3 <= IR < 9"]["p"] < 0.05 and "ranks first" in by_band["3 <= IR < 9"]["claim"]
     assert "no claim: only 4 datasets" in by_band["IR < 3"]["claim"] and by_band["IR < 3"]["tied"] == []   # four datasets: no claim
 
 

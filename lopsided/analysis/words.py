@@ -33,10 +33,10 @@ def claims(result):
         lines.append(f"Iman-Davenport F is {f.iman_davenport_note}.")
     top = next((g for g in result.groups if best in g), [best])
     if len(top) == k:
-        lines.append(f"No two of the {k} methods differ significantly by the Nemenyi test "
+        lines.append(f"The Nemenyi test separates no two of the {k} methods "
                      f"(alpha = {a:g}, CD = {result.nemenyi.cd:.3g} ranks).")
     elif len(top) > 1:
-        lines.append(f"No significant difference (Nemenyi, alpha = {a:g}, CD = {result.nemenyi.cd:.3g}) among the top "
+        lines.append(f"The Nemenyi test (alpha = {a:g}, CD = {result.nemenyi.cd:.3g}) cannot separate the top "
                      f"{len(top)}: {', '.join(top)}.")
     beaten = [m for m in result.methods[1:] if result.nemenyi_p.loc[best, m] < a]
     if beaten and f.decision_p < a:
@@ -81,6 +81,6 @@ def caption(result, where):
     verdict = (f"too few datasets for a significance claim (N < {MIN_DATASETS})" if not result.claims_allowed else
                f"omnibus {f.decision_test} = {f.decision_p:.3g}")
     return (f"Critical-difference diagram of {f.n_methods} methods over N = {f.n_datasets} datasets ({where}): "
-            f"average rank, 1 = best; methods joined by a bar are not significantly different by the "
+            f"average rank, 1 = best; methods joined by a bar are not separated by the "
             f"{result.nemenyi.test} test at alpha = {result.alpha:g} (CD = {result.nemenyi.cd:.2f}); {verdict}. "
             f"Statistics after Demšar (2006).")

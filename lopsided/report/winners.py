@@ -66,5 +66,6 @@ def _row(by, band, point, matrix, alpha, rope):
         row["claim"] = f"no significant difference among the {f.n_methods} methods: no winner"
     else:
         row["tied"] = [m for m in result.methods[1:] if result.nemenyi_p.loc[best, m] >= alpha]
-        row["claim"] = f"{best} is best; {len(row['tied'])} of {f.n_methods - 1} others not significantly worse (Nemenyi)"
+        row["claim"] = (f"{best} ranks first; the Nemenyi test cannot separate {len(row['tied'])} of the "
+                        f"{f.n_methods - 1} others from it")
     return row
