@@ -17,7 +17,7 @@ from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import MethodSpec
 from .store import Store, now
-from .suite import added_resampler, check_writable, load_suite, spec_dict, suite_from_dict
+from .suite import added_resampler, check_writable, load_suite, spec_dict, suite_from_dict, unit_seconds
 
 PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2", "chemotools", "openml",
             "threadpoolctl", "tqdm", "pyarrow", "jcamp")
@@ -161,17 +161,19 @@ def refuse_unreachable(suite, datasets):
 
 def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamplers=(), retry_failed=False,
               progress=True, alpha=0.05, rope=0.01, compare_split_leakage=False, command=None, backend="auto",
-              scheduler=None):
+              scheduler=None, timeout=None):
     """Run a suite file (or Suite) and write its leaderboard; stored cells are reused.
 
     Resamplers added with ``add_resamplers`` are recorded in the store and stay in every later run
     and report of the suite until dropped with ``drop_resamplers``. ``compare_split_leakage`` also
     runs every grouped dataset with its groups ignored and reports how much the leaky random split
     inflates the headline metric. ``command`` is recorded in the manifest (default: the call itself).
+    ``timeout`` (seconds per work unit) overrides the suite's ``protocol.timeout``.
     """
     base = load_suite(path) if not hasattr(path, "protocol") else path
     if not isinstance(jobs, int) or jobs < 1:
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
+    timeout = unit_seconds(timeout, "--timeout", "timeout")
     command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
     where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
@@ -189,11 +191,11 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
         run_id = db.begin_run(suite, full.keys)
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
-                          backend=backend, scheduler=scheduler)
+                          backend=backend, scheduler=scheduler, timeout=timeout)
         cells = db.cells(full.keys)
         if leaky is not None:
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
-                             backend=backend, scheduler=scheduler)
+                             backend=backend, scheduler=scheduler, timeout=timeout)
             for key in ("reused", "computed", "failed"):     # the leakage run counts as work done, not planned
                 counts[key] += extra[key]
         summary = _summary(suite, datasets, full, cells, counts, origins)
@@ -251,22 +253,21 @@ def overlap(data):
             "n1": round(float(found.n1), 6)}
 
 
-RUN_FIELDS = ("started_at", "finished_at", "seconds", "jobs", "command")
-
-
 def rebuild_report(target, out=None, alpha=0.05, rope=0.01, drop_resamplers=(), command=None):
     """Rebuild a leaderboard folder from stored cells: ``target`` is a suite file or a store.
 
-    Nothing is refitted. Resamplers the suite gained stay in; ``drop_resamplers`` leaves added ones out
-    from now on. The manifest keeps the times, jobs and command of the run that computed the cells
-    and records the rebuild separately. From a store alone, the newest finished run is rebuilt.
+    Nothing is refitted and no dataset is loaded or downloaded: the newest finished run of the suite
+    (from a store alone: of any suite) recorded its plan's cell keys, its datasets' descriptions and
+    times, and the report is rebuilt from those. A suite file must still describe that run (else: run
+    it, stored cells are reused). Resamplers the suite gained stay in; ``drop_resamplers`` leaves
+    added ones out from now on. The manifest records the rebuild beside the run that computed the cells.
     """
     target = Path(target)
     command = command or f"lopsided.rebuild_report({str(target)!r})"
     if target.suffix != ".toml":
         if out is not None:
             check_writable(out, "--out", str(out))
-        return _rebuild_from_store(target, out, alpha, rope, drop_resamplers, command)
+        return _rebuild(target, out, alpha, rope, drop_resamplers, command)
     base = load_suite(target)
     where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
@@ -274,50 +275,43 @@ def rebuild_report(target, out=None, alpha=0.05, rope=0.01, drop_resamplers=(), 
     store_path = Path(base.path(base.store) or out / "store.sqlite")
     if not store_path.is_file():
         raise StoreError(f"{store_path}: no result store for suite {base.name!r}; run it first")
-    db = Store(store_path, create=False)
-    try:
-        suite, origins = with_added_methods(base, db, (), drop_resamplers, command)
-        datasets = load_all(suite)
-        full = plan(suite, datasets)
-        cells = db.cells(full.keys)
-        counts = {"planned": len(full.keys), "reused": len(db.known_keys(full.keys)), "computed": 0, "failed": 0,
-                  "skipped_points": len(full.skipped)}
-        summary = _summary(suite, datasets, full, cells, counts, origins)
-        try:
-            _, last, _ = db.latest_run(suite.name)
-            summary.update({k: last[k] for k in RUN_FIELDS if k in last})
-        except StoreError:
-            pass
-        summary["rebuilt"] = {"at": now(), "command": command}
-        leaky_cells = db.cells(plan(suite, datasets, split="random").keys)
-        if len(leaky_cells):                  # a --compare-split-leakage run stored these
-            summary["split_leakage"] = leakage_rows(cells, leaky_cells, suite)
-    finally:
-        db.close()
-    write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
-    return out
+    return _rebuild(store_path, out, alpha, rope, drop_resamplers, command, base)
 
 
-def _rebuild_from_store(path, out, alpha, rope, drop, command):
-    """The newest finished run of a store, as it was planned, less any resampler dropped now."""
+def _rebuild(path, out, alpha, rope, drop, command, base=None):
+    """The newest finished run in store ``path`` (of ``base``, a Suite, when given), as it was planned, less
+    the resamplers dropped now or before."""
     db = Store(path, create=False)
     try:
-        suite_dict, summary, keys = db.latest_run()
-        suite = suite_from_dict(_as_raw(suite_dict), source=str(path))
-        added = {d["label"] for d, _, _ in db.added_methods(suite.name, "resamplers")}
-        own = suite.without_resamplers(added)
-        _, origins = with_added_methods(own, db, (), drop, command)
-        suite = suite.without_resamplers(drop)
+        suite_dict, summary, keys = db.latest_run(base.name if base else None)
+        ran = suite_from_dict(_as_raw(suite_dict), source=str(path))
+        own = base or ran.without_resamplers({d["label"] for d, _, _ in db.added_methods(ran.name, "resamplers")})
+        if base is not None:
+            _refuse_changed(base, with_added_methods(own, db)[0], ran, path)
+        kept, origins = with_added_methods(own, db, (), drop, command)
+        suite = ran.without_resamplers({s.title for s in ran.resamplers} - {s.title for s in kept.resamplers})
         cells = db.cells(keys)
     finally:
         db.close()
-    kept = {s.canonical for s in suite.resamplers}
-    cells = cells[cells["resampler"].isin(kept)]
+    cells = cells[cells["resampler"].isin({s.canonical for s in suite.resamplers})].reset_index(drop=True)
     out = Path(out or Path("results") / suite.name)
     skipped = summary.pop("skipped", [])
+    ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
+    counted = summary.get("cells", {})
+    summary["cells"] = {**counted, "planned": len(cells) + counted.get("missing", 0), "ok": ok,
+                        "failed": len(cells) - ok}
     summary.update(skipped=skipped_summary(skipped), methods=origins, rebuilt={"at": now(), "command": command})
     write_report(out, suite.as_dict(), cells, skipped, summary, alpha=alpha, rope=rope)
     return out
+
+
+def _refuse_changed(base, current, ran, path):
+    """A suite file must describe its newest stored run (less resamplers dropped since): a changed suite
+    plans other cells, which only a run can compute."""
+    dropped = {s.title for s in ran.resamplers} - {s.title for s in current.resamplers}
+    if current.fingerprint != ran.without_resamplers(dropped).fingerprint:
+        raise StoreError(f"{base.source}: the suite changed since its last run stored in {path}; run it to "
+                         f"bring the leaderboard up to date (stored cells are reused): lopsided run {base.source}")
 
 
 def _as_raw(suite_dict):

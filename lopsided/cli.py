@@ -35,6 +35,9 @@ def parser():
                           "it stays in the suite's later runs and reports until dropped")
     _drop_option(run)
     run.add_argument("--retry-failed", action="store_true", help="recompute cells stored as failed")
+    run.add_argument("--timeout", type=float, metavar="SECONDS",
+                     help="stop a work unit after this many seconds and store its cells as failed "
+                          "(default: the suite's protocol.timeout, else no limit)")
     run.add_argument("--compare-split-leakage", action="store_true",
                      help="also run grouped datasets with groups ignored and report the inflation")
     run.add_argument("--quiet", action="store_true", help="no progress bar")
@@ -150,7 +153,7 @@ def _run(args):
                        add_resamplers=args.add_resampler, drop_resamplers=args.drop_resampler,
                        retry_failed=args.retry_failed, progress=not args.quiet, alpha=args.alpha, rope=args.rope,
                        compare_split_leakage=args.compare_split_leakage, command=args.command_line,
-                       backend=args.backend, scheduler=args.scheduler)
+                       backend=args.backend, scheduler=args.scheduler, timeout=args.timeout)
     cells = result.summary["cells"]
     print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
           f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "

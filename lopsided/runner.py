@@ -30,7 +30,8 @@ from . import __version__
 from . import learners as learner_registry
 from . import preprocessing as preprocessing_registry
 from . import resamplers as resampler_registry
-from .backends import BackendError, open_backend
+from .backends import BackendError, Lost, open_backend
+from .backends.containment import UnitTimeout, captured_output, time_limit
 from .backends.worker import captured_warnings, limit_threads, one_job
 from .errors import LopsidedError
 from .metrics import class_scores, score_cell
@@ -160,59 +161,115 @@ def worker_versions(unit, preprocessing_specs):
                         for c in unit.cells}}
 
 
-def run_unit(unit, data, preprocessing_specs):
+def run_unit(unit, data, preprocessing_specs, timeout=None):
     """A worker's part for one unit, on every backend: BLAS / OpenMP limited to one thread, the code
-    versions of the methods as this worker resolves them, then the unit's rows."""
+    versions of the methods as this worker resolves them, then the unit's rows, within ``timeout``
+    seconds (None: no limit)."""
     limit_threads()
     ran = worker_versions(unit, preprocessing_specs)
-    return Outcome(execute_unit(unit, data, preprocessing_specs, ran), ran)
+    try:
+        with time_limit(timeout):
+            rows = execute_unit(unit, data, preprocessing_specs, ran, timeout)
+    except UnitTimeout:          # the limit struck between two stages
+        rows = failed_rows(unit, _code_versions(unit, ran), _over_time(timeout), _basics(unit, data))
+    return Outcome(rows, ran)
 
 
-def _error_text(exc):
-    """One line: exception type and message (the traceback's last frame for context)."""
+def _error_text(exc, timeout=None):
+    """One line: what went wrong (exception type and message, the traceback's last frame for context)."""
+    if isinstance(exc, UnitTimeout):
+        return _over_time(timeout)
+    if isinstance(exc, SystemExit):
+        return f"called sys.exit({exc.code!r}); lopsided kept running"
     frame = traceback.extract_tb(exc.__traceback__)[-1] if exc.__traceback__ else None
     where = f" [{os.path.basename(frame.filename)}:{frame.lineno}]" if frame else ""
     return f"{type(exc).__name__}: {exc}{where}"
 
 
-def execute_unit(unit, data, preprocessing_specs, versions):
+def _over_time(timeout):
+    return f"stopped: the unit ran past its time limit of {timeout:g} s (protocol.timeout or --timeout)"
+
+
+def _basics(unit, data):
+    """The columns every row of a unit shares, as planned."""
+    return {**{k: unit.coords[k] for k in ("dataset", "dataset_checksum", "ratio", "size", "repeat", "fold")},
+            "preprocessing": json.dumps(unit.coords["preprocessing"]), "resampler": unit.resampler.canonical,
+            "unit_key": unit.key, "n_train": len(unit.train), "n_test": len(unit.test),
+            "n_train_minority": None if data is None else int((data.y[unit.train] == data.minority).sum())}
+
+
+def _code_versions(unit, versions):
+    """{cell key: the code_version text stored with it}."""
+    code = {"lopsided": __version__, **{k: versions[k] for k in ("protocol", "preprocessing", "resampler")}}
+    return {c.key: json.dumps({**code, "learner": versions["learner"][c.learner.canonical]}, sort_keys=True,
+                              separators=(",", ":"))
+            for c in unit.cells}
+
+
+def failed_rows(unit, code_versions, error, base, cells=None, warning=None):
+    """Rows of ``cells`` (default: all the unit's) stored as failed with ``error``."""
+    return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "code_version": code_versions[c.key],
+             "status": "failed", "error": error, "warning": warning, "finished_at": now()}
+            for c in (unit.cells if cells is None else cells)]
+
+
+def lost_rows(unit, reason):
+    """Rows of a unit its backend lost (its worker died or was stopped), with the code versions planned."""
+    planned = {**unit.code, "learner": {c.learner.canonical: c.code for c in unit.cells}}
+    return failed_rows(unit, _code_versions(unit, planned), reason, _basics(unit, None))
+
+
+def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
     """Resample the unit's training rows once, fit and score every learner; one row per cell.
 
-    ``versions`` (from ``worker_versions``) is stored with each cell as the code it ran."""
+    ``versions`` (from ``worker_versions``) is stored with each cell as the code it ran. A stage that
+    raises, calls sys.exit or runs out of time fails its cells (after a resampler: all of them; after
+    a learner: its own and, out of time, the ones not yet run); what a stage prints is kept off the
+    terminal and noted in the rows' warning, as is a resampler that changed its input arrays in place.
+    """
     X_train, y_train = data.X[unit.train], data.y[unit.train]
     X_test, y_test = data.X[unit.test], data.y[unit.test]
-    base = {**{k: unit.coords[k] for k in ("dataset", "dataset_checksum", "ratio", "size", "repeat", "fold")},
-            "preprocessing": json.dumps(unit.coords["preprocessing"]), "resampler": unit.resampler.canonical,
-            "unit_key": unit.key, "n_train": len(y_train), "n_test": len(y_test),
-            "n_train_minority": int((y_train == data.minority).sum())}
-    code = {"lopsided": __version__, **{k: versions[k] for k in ("protocol", "preprocessing", "resampler")}}
-    ran = {c.key: json.dumps({**code, "learner": versions["learner"][c.learner.canonical]}, sort_keys=True,
-                             separators=(",", ":"))
-           for c in unit.cells}
+    base = _basics(unit, data)
+    ran = _code_versions(unit, versions)
     stage = "preprocessing"
-    try:
-        pipeline = preprocessing_registry.make_preprocessing(preprocessing_specs, data.axis)
-        if pipeline is not None:
-            X_train, X_test = pipeline.fit_transform(X_train, y_train), pipeline.transform(X_test)
-        stage = f"resampler {unit.resampler.title}"
-        started = time.perf_counter()
-        resampler = one_job(resampler_registry.make_resampler(unit.resampler, unit.seed))
-        X_res, y_res = resampler.fit_resample(X_train.copy(), y_train.copy())
-        X_res, y_res = check_resampled(unit.resampler.title, X_train, y_train, X_res, y_res)
-        resample_seconds = time.perf_counter() - started
-    except Exception as exc:
-        error = f"{stage}: {_error_text(exc)}"
-        return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "code_version": ran[c.key],
-                 "status": "failed", "error": error, "finished_at": now()} for c in unit.cells]
+    with captured_output() as printed:
+        try:
+            pipeline = preprocessing_registry.make_preprocessing(preprocessing_specs, data.axis)
+            if pipeline is not None:
+                X_train, X_test = pipeline.fit_transform(X_train, y_train), pipeline.transform(X_test)
+            stage = f"resampler {unit.resampler.title}"
+            started = time.perf_counter()
+            resampler = one_job(resampler_registry.make_resampler(unit.resampler, unit.seed))
+            X_given, y_given = X_train.copy(), y_train.copy()
+            X_res, y_res = resampler.fit_resample(X_given, y_given)
+            X_res, y_res = check_resampled(unit.resampler.title, X_train, y_train, X_res, y_res)
+            resample_seconds = time.perf_counter() - started
+        except (Exception, SystemExit, UnitTimeout) as exc:
+            return failed_rows(unit, ran, f"{stage}: {_error_text(exc, timeout)}", base,
+                               warning=printed.summary(stage))
+    mutated = not (np.array_equal(X_given, X_train, equal_nan=True) and np.array_equal(y_given, y_train))
+    notes = [printed.summary(stage),
+             f"{stage} changed its input arrays in place (it was given copies: no effect on the results)" if mutated
+             else None]
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
     weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
-    return [_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test, y_test, data)
-            for cell in unit.cells]
+    rows = []
+    for position, cell in enumerate(unit.cells):
+        try:
+            rows.append(_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test, y_test,
+                                 data, notes))
+        except UnitTimeout:
+            rows += failed_rows(unit, ran, f"learner {cell.learner.title}: {_over_time(timeout)}", base, [cell])
+            rows += failed_rows(unit, ran, f"not run: the unit's time limit of {timeout:g} s ran out during learner "
+                                f"{cell.learner.title}", base, unit.cells[position + 1:])
+            break
+    return rows
 
 
-def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
+def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):
     row = {**base, "key": cell.key, "learner": cell.learner.canonical, "seed": cell.seed}
-    with captured_warnings() as caught:
+    stage = f"learner {cell.learner.title}"
+    with captured_warnings() as caught, captured_output() as printed:
         try:
             model = one_job(learner_registry.make_learner(cell.learner, cell.seed))
             started = time.perf_counter()
@@ -222,20 +279,23 @@ def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data):
             scores = class_scores(model, X_test, len(data.classes))
             done = time.perf_counter()
             metrics = score_cell(y_test, predicted, scores, data.minority, data.classes)
-        except Exception as exc:
-            return {**row, "status": "failed", "error": f"learner {cell.learner.title}: {_error_text(exc)}",
-                    "warning": _warning_text(caught), "finished_at": now()}
+        except (Exception, SystemExit) as exc:
+            return {**row, "status": "failed", "error": f"{stage}: {_error_text(exc)}",
+                    "warning": _warning_text(caught, notes, printed.summary(stage)), "finished_at": now()}
     return {**row, "status": "ok", "metrics": json.dumps(metrics), "fit_seconds": fitted - started,
-            "predict_seconds": done - fitted, "warning": _warning_text(caught), "finished_at": now()}
+            "predict_seconds": done - fitted, "warning": _warning_text(caught, notes, printed.summary(stage)),
+            "finished_at": now()}
 
 
-def _warning_text(caught):
-    """The first warning a cell raised (e.g. a solver that did not converge) and how many there were."""
-    if not caught:
-        return None
-    category, message = caught[0]
-    more = f" (+{len(caught) - 1} more)" if len(caught) > 1 else ""
-    return f"{category.__name__}: {str(message).splitlines()[0]}{more}"
+def _warning_text(caught, notes=(), printed=None):
+    """The first warning a cell raised (e.g. a solver that did not converge) and how many there were,
+    then any notes about the unit's methods (output printed, input changed), joined by '; '."""
+    parts = [note for note in (*notes, printed) if note]
+    if caught:
+        category, message = caught[0]
+        more = f" (+{len(caught) - 1} more)" if len(caught) > 1 else ""
+        parts.insert(0, f"{category.__name__}: {str(message).splitlines()[0]}{more}")
+    return "; ".join(parts) or None
 
 
 def execute(units, backend, stoppable=nullcontext):
@@ -379,9 +439,10 @@ class _Batch:
 
 
 def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True, backend="auto",
-             scheduler=None):
+             scheduler=None, timeout=None):
     """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return counts
-    {planned, reused, computed, failed, skipped_points}. Raises Interrupted after SIGINT / SIGTERM."""
+    {planned, reused, computed, failed, skipped_points}. ``timeout`` (default: the suite's
+    ``protocol.timeout``) limits each unit's seconds. Raises Interrupted after SIGINT / SIGTERM."""
     stored = store.known_keys(full_plan.keys, include_failed=not retry_failed)
     todo = pending(full_plan, stored)
     counts = {"planned": len(full_plan.keys), "reused": len(stored), "computed": 0, "failed": 0,
@@ -389,9 +450,10 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
     if not todo:
         return counts
     needed = {unit.coords["dataset"] for unit in todo}
+    timeout = timeout or suite.protocol.timeout
     with _Signals() as signals:
         workers = open_backend(backend, run_unit, {ref: datasets[ref] for ref in needed},
-                               (tuple(suite.preprocessing),), jobs, scheduler)
+                               (tuple(suite.preprocessing), timeout), jobs, scheduler, timeout)
         total = sum(len(u.cells) for u in todo)
         if progress and sys.stderr.isatty():
             bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr,
@@ -402,11 +464,15 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
         try:
             for done in execute(todo, workers, signals.stoppable):
                 for unit, outcome in done:
-                    check_versions(unit, outcome.versions)
-                    batch.add(outcome.rows)
-                    counts["computed"] += len(outcome.rows)
-                    counts["failed"] += sum(r["status"] == "failed" for r in outcome.rows)
-                    bar.update(len(outcome.rows))
+                    if isinstance(outcome, Lost):
+                        rows = lost_rows(unit, outcome.reason)
+                    else:
+                        check_versions(unit, outcome.versions)
+                        rows = outcome.rows
+                    batch.add(rows)
+                    counts["computed"] += len(rows)
+                    counts["failed"] += sum(r["status"] == "failed" for r in rows)
+                    bar.update(len(rows))
                     bar.set_postfix(failed=counts["failed"], refresh=False)
                 if batch.due():
                     batch.write()

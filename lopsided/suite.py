@@ -24,7 +24,7 @@ from .specs import MethodSpec, parse_method, parse_reference
 TOP_KEYS = {"name", "seed", "description", "datasets", "resamplers", "learners", "metrics",
             "preprocessing", "protocol", "store", "out", "control"}
 NO_CONTROL = "none"
-PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority", "test"}
+PROTOCOL_KEYS = {"repeats", "folds", "holdout", "ratios", "sizes", "min_minority", "test", "timeout"}
 RATIO_WORDS = ("natural", "balanced")
 METHOD_KEYS = {"name", "params", "label"}
 TOML_PLACE = re.compile(r"\s*\(at (?:line (\d+), column (\d+)|end of document)\)$")
@@ -37,6 +37,8 @@ class Protocol:
     ``ratios``: training-set imbalance ratios (majority:minority) to cut, 'natural' or 'balanced'.
     ``sizes``: training-set sizes, or 'all'. Every ratio x size pair is a protocol point.
     ``holdout``: instead of k folds, one split per repeat with about this test share.
+    ``timeout``: seconds a work unit may take before it is stopped and its cells stored as failed
+    (None: no limit). It changes no cell's key: cells stored as failed are recomputed with --retry-failed.
     """
 
     repeats: int = 3
@@ -46,6 +48,7 @@ class Protocol:
     ratios: tuple = ("natural",)
     sizes: tuple = ("all",)
     min_minority: int = 5
+    timeout: float | None = None
 
     @property
     def points(self):
@@ -117,7 +120,8 @@ class Suite:
             "protocol": {"repeats": self.protocol.repeats, "folds": self.protocol.folds,
                          "holdout": self.protocol.holdout, "test": self.protocol.test,
                          "ratios": list(self.protocol.ratios), "sizes": list(self.protocol.sizes),
-                         "min_minority": self.protocol.min_minority},
+                         "min_minority": self.protocol.min_minority,
+                         **({"timeout": self.protocol.timeout} if self.protocol.timeout else {})},
             "control": NO_CONTROL if self.control is None else self.control,
         }
 
@@ -316,7 +320,17 @@ def _protocol(table, source):
                                 or not 0 < holdout < 1):
         raise SuiteError(source, "protocol.holdout", f"{holdout!r} is not a test share between 0 and 1")
     return Protocol(repeats=repeats, folds=folds, holdout=holdout, ratios=tuple(ratios), sizes=tuple(sizes),
-                    min_minority=min_minority, test=_test_design(table.get("test", "folds"), source))
+                    min_minority=min_minority, test=_test_design(table.get("test", "folds"), source),
+                    timeout=unit_seconds(table.get("timeout"), source, "protocol.timeout"))
+
+
+def unit_seconds(value, source, field):
+    """A per-unit time limit: None, or a number of seconds > 0."""
+    if value is None:
+        return None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < math.inf:
+        raise SuiteError(source, field, f"{value!r} is not a time limit; allowed: a number of seconds > 0")
+    return float(value)
 
 
 def _test_design(value, source):

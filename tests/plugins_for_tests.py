@@ -1,4 +1,8 @@
 """Throw-away resamplers used by the tests (importable as plugins_for_tests:Name)."""
+import os
+import signal
+import sys
+import time
 import uuid
 from pathlib import Path
 
@@ -60,3 +64,68 @@ class Halves:
         major = np.flatnonzero(y == counts.argmax())
         keep = np.sort(np.r_[np.flatnonzero(y != counts.argmax()), major[::2]])
         return X[keep], y[keep]
+
+
+class Misbehaving:
+    """Base of the resamplers below: each misbehaves in one way, then would pass the data through."""
+
+    def __init__(self, random_state=None):
+        self.random_state = random_state
+
+
+class Sleeps(Misbehaving):
+    """Hangs in a blocking call."""
+
+    def fit_resample(self, X, y):
+        time.sleep(600)
+        return X, y
+
+
+class Spins(Misbehaving):
+    """Hangs in a Python loop that catches every Exception."""
+
+    def fit_resample(self, X, y):
+        while True:
+            try:
+                sum(range(1000))
+            except Exception:
+                pass
+
+
+class DeafSleeps(Misbehaving):
+    """Hangs where no time limit inside the process can reach it (SIGALRM blocked, then a long sleep):
+    only killing its worker ends it."""
+
+    def fit_resample(self, X, y):
+        signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGALRM})
+        time.sleep(600)
+        return X, y
+
+
+class Exits(Misbehaving):
+    def fit_resample(self, X, y):
+        sys.exit(3)
+
+
+class EndsItsProcess(Misbehaving):
+    def fit_resample(self, X, y):
+        os._exit(9)
+
+
+class Chatters(Misbehaving):
+    """Prints about 3 MB, then passes the data through."""
+
+    def fit_resample(self, X, y):
+        for _ in range(3000):
+            print("chatter " * 125)
+        return X, y
+
+
+class Mutates(Misbehaving):
+    """Overwrites its input arrays, then returns copies of what it was given."""
+
+    def fit_resample(self, X, y):
+        original = X.copy(), y.copy()
+        X[:] = 0.0
+        y[:] = y[0]
+        return original

@@ -149,6 +149,29 @@ def test_report_rebuilds_from_the_store_alone(write_suite, tmp_path):
     assert {(c["ratio"], c["size"], c["view"]) for c in stats["comparisons"]} >= {("natural", "all", "all")}
 
 
+def test_report_from_the_suite_file_loads_no_dataset_and_refuses_a_changed_suite(write_suite, tmp_path,
+                                                                              monkeypatch, capsys):
+    """Rebuilding uses what the run recorded: a loader that fails proves no dataset is read or fetched."""
+    suite = write_suite()
+    result = run_suite(suite, out=tmp_path / "o", progress=False)
+    original = (tmp_path / "o" / "stats.json").read_text()
+    (tmp_path / "o" / "stats.json").unlink()
+
+    def no_loading(*args, **kwargs):
+        raise AssertionError("a dataset was loaded while rebuilding")
+
+    monkeypatch.setattr("lopsided.benchmark.load_dataset", no_loading)
+    assert main(["report", str(suite), "--out", str(tmp_path / "o")]) == 0
+    assert (tmp_path / "o" / "stats.json").read_text() == original
+    manifest = json.loads((tmp_path / "o" / "manifest.json").read_text())
+    assert manifest["datasets"] == result.summary["datasets"] and "rebuilt" in manifest
+    changed = write_suite(text=suite.read_text().replace("seed = ", "seed = 9"))
+    assert main(["report", str(changed), "--out", str(tmp_path / "o")]) == 2
+    error = capsys.readouterr().err
+    assert "the suite changed since its last run" in error and f"lopsided run {changed}" in error
+    assert (tmp_path / "o" / "stats.json").read_text() == original          # nothing overwritten
+
+
 def test_infeasible_points_are_skipped_and_reported(write_suite, tmp_path):
     result = run_suite(write_suite(ratios='["natural", 30]'), out=tmp_path / "o", progress=False)
     assert result.summary["cells"]["skipped_points"] > 0

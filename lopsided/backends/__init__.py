@@ -5,7 +5,9 @@ to the process that opened it (the driver, which alone writes the store). Every 
 
     slots               how many units can run at once (the runner hands over a few more, so none idles)
     submit(unit, ref)   queue one unit; ``ref`` names its dataset among those the backend was opened with
-    finished(timeout)   [(unit, result)] finished since the last call; waits up to ``timeout`` s for one
+    finished(timeout)   [(unit, result)] finished since the last call; waits up to ``timeout`` s for one.
+                        A unit the backend could not finish (its worker died, or ran far past the unit's
+                        time limit and was stopped) comes back with a ``Lost`` result: a value, not an error
     cancel()            forget every queued unit that has not started
     close()             stop the workers; units still running are abandoned
 
@@ -14,6 +16,8 @@ Dask cluster); a unit carries only its coordinates. ``serial`` runs units in thi
 ``processes`` on local worker processes (the default for jobs > 1), ``dask`` on a Dask cluster: a
 LocalCluster of ``jobs`` single-threaded worker processes on 127.0.0.1, or a running one at ``scheduler``.
 """
+from dataclasses import dataclass
+
 from ..errors import LopsidedError, unknown
 
 BACKENDS = ("serial", "processes", "dask")
@@ -21,6 +25,12 @@ BACKENDS = ("serial", "processes", "dask")
 
 class BackendError(LopsidedError):
     """A backend cannot be chosen or started, or a worker failed outside a unit's own error handling."""
+
+
+@dataclass(frozen=True)
+class Lost:
+    """The result of a unit its backend could not finish, and why (the runner stores its cells as failed)."""
+    reason: str
 
 
 def choose(backend, jobs, scheduler):
@@ -40,15 +50,16 @@ def choose(backend, jobs, scheduler):
     return backend
 
 
-def open_backend(backend, task, datasets, shared=(), jobs=1, scheduler=None):
+def open_backend(backend, task, datasets, shared=(), jobs=1, scheduler=None, timeout=None):
     """A started backend that runs ``task(unit, datasets[ref], *shared)``; ``task`` must be importable
-    by its module path (worker processes look it up there)."""
+    by its module path (worker processes look it up there). ``task`` enforces a unit's ``timeout``
+    itself (containment.py); a backend that can stop a worker stops one that runs far past it."""
     name = choose(backend, jobs, scheduler)
     if name == "serial":
         from .serial import Serial
         return Serial(task, datasets, shared)
     if name == "processes":
         from .processes import Processes
-        return Processes(task, datasets, shared, jobs)
+        return Processes(task, datasets, shared, jobs, timeout)
     from .cluster import DaskCluster
     return DaskCluster(task, datasets, shared, jobs, scheduler)
