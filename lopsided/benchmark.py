@@ -9,6 +9,7 @@ import numpy as np
 
 from . import __version__
 from .analysis.complexity import meta_features
+from .backends import choose
 from .dataset import Dataset
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError, unknown
@@ -174,6 +175,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
     if not isinstance(jobs, int) or jobs < 1:
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
     timeout = unit_seconds(timeout, "--timeout", "timeout")
+    choose(backend, jobs, scheduler)          # a backend option that cannot work is refused before data loads
     command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
     where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
@@ -196,8 +198,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         if leaky is not None:
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                              backend=backend, scheduler=scheduler, timeout=timeout)
-            for key in ("reused", "computed", "failed"):     # the leakage run counts as work done, not planned
-                counts[key] += extra[key]
+            counts = counts.plus(extra)        # the leakage run counts as work done, not planned
         summary = _summary(suite, datasets, full, cells, counts, origins)
         summary.update(started_at=started, finished_at=now(), seconds=round(time.perf_counter() - clock, 2),
                        jobs=jobs, command=command)
@@ -224,10 +225,10 @@ def _summary(suite, datasets, full, cells, counts, origins):
     return {
         "suite": suite.name, "suite_fingerprint": suite.fingerprint, "suite_file": suite.source,
         "seed": suite.seed, "versions": versions(), "methods": origins,
-        "cells": {"planned": counts["planned"], "ok": ok, "failed": len(cells) - ok,
-                  "missing": counts["planned"] - len(cells), "reused": counts["reused"],
-                  "computed": counts["computed"], "failed_now": counts["failed"],
-                  "skipped_points": counts["skipped_points"]},
+        "cells": {"planned": counts.planned, "ok": ok, "failed": len(cells) - ok,
+                  "missing": counts.planned - len(cells), "reused": counts.reused,
+                  "computed": counts.computed, "failed_now": counts.failed,
+                  "skipped_points": counts.skipped_points},
         "skipped": skipped_summary(full.skipped),
         "datasets": [{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
                       "note": data.provenance.note, "source": data.provenance.source,

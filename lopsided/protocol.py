@@ -31,11 +31,6 @@ def derive_seed(*parts):
     return int.from_bytes(hashlib.sha256(text.encode()).digest()[:4], "little")
 
 
-def point_label(value):
-    """'natural' / 'all' stay; numbers print without a trailing .0."""
-    return value if isinstance(value, str) else f"{value:g}"
-
-
 def fold_splits(dataset, folds, seed, use_groups=True, holdout=None):
     """[(train rows, test rows)] for one repeat: stratified, grouped when the data has groups
     (unless ``use_groups`` is False: the leaky random split, for comparison only)."""

@@ -22,7 +22,7 @@ from pathlib import Path
 import pandas as pd
 
 from .errors import LopsidedError, did_you_mean
-from .protocol import point_label
+from .records import point_label
 from .report import CAUTION, markdown_text
 
 KEYS = ("dataset", "ratio", "size", "resampler", "learner")

@@ -36,7 +36,8 @@ from .backends.worker import captured_warnings, limit_threads, one_job
 from .errors import LopsidedError
 from .metrics import class_scores, score_cell
 from .plugins import code_version
-from .protocol import Infeasible, class_orders, derive_seed, point_counts, point_label, point_rows, repeat_splits
+from .protocol import Infeasible, class_orders, derive_seed, point_counts, point_rows, repeat_splits
+from .records import CellRow, Coordinates, Point, RunCounts
 from .resamplers.base import check_resampled
 from .store import now
 
@@ -56,7 +57,7 @@ class Cell:
 @dataclass(frozen=True)
 class WorkUnit:
     key: str
-    coords: dict        # dataset, dataset_checksum, preprocessing, ratio, size, repeat, fold, resampler
+    coords: Coordinates
     resampler: object   # MethodSpec
     seed: int
     train: np.ndarray
@@ -65,10 +66,7 @@ class WorkUnit:
     code: dict          # protocol, preprocessing and resampler code versions, as planned (part of the keys)
 
     def __str__(self):
-        c = self.coords
-        split = f", split {c['split']}" if "split" in c else ""
-        return (f"{c['dataset']}, ratio {c['ratio']}, size {c['size']}, repeat {c['repeat']}, fold {c['fold']}"
-                f"{split}, resampler {self.resampler.title}")
+        return f"{self.coords}, resampler {self.resampler.title}"
 
 
 @dataclass
@@ -104,7 +102,7 @@ def plan(suite, datasets, split="grouped"):
         "resampler": {s.canonical: code_version(resampler_registry.resolve(s.name)) for s in suite.resamplers},
         "learner": {s.canonical: code_version(learner_registry.resolve(s.name)) for s in suite.learners},
     }
-    prep = [s.canonical for s in suite.preprocessing]
+    prep = tuple(s.canonical for s in suite.preprocessing)
     result = Plan(units=[])
     protocol = suite.protocol
     for reference in suite.datasets:
@@ -118,31 +116,27 @@ def plan(suite, datasets, split="grouped"):
                 orders = class_orders(data.y, train, derive_seed(suite.seed, reference, "order", repeat, fold))
                 available = {c: len(rows) for c, rows in orders.items()}
                 for ratio, size in protocol.points if split == "grouped" else protocol.points[:1]:
-                    where = {"dataset": reference, "ratio": point_label(ratio), "size": point_label(size),
-                             "repeat": repeat, "fold": fold}
+                    point = Point(ratio, size)
                     wanted = point_counts(available, data.minority, ratio, size, protocol.min_minority)
                     if isinstance(wanted, Infeasible):
-                        result.skipped.append({**where, "reason": wanted.reason})
+                        result.skipped.append({"dataset": reference, "ratio": point.ratio_label,
+                                               "size": point.size_label, "repeat": repeat, "fold": fold,
+                                               "reason": wanted.reason})
                         continue
                     rows = point_rows(orders, wanted)
                     for spec in suite.resamplers:
-                        coords = {**where, "dataset_checksum": data.checksum, "folds": protocol.folds,
-                                  "suite_seed": suite.seed, "preprocessing": prep, "resampler": spec.canonical}
-                        if protocol.holdout is not None:
-                            coords["holdout"] = protocol.holdout
-                        if protocol.test != "folds":          # the default design keeps its keys unchanged
-                            coords["test"] = protocol.test
-                        if split != "grouped":
-                            coords["split"] = split
+                        coords = Coordinates(reference, data.checksum, suite.seed, protocol.folds, point, repeat, fold,
+                                             prep, spec.canonical, protocol.holdout, protocol.test, split)
+                        where = coords.payload()
                         code = {**versions, "resampler": versions["resampler"][spec.canonical]}
                         cells = tuple(
-                            Cell(learner, _hash({**coords, "learner": learner.canonical,
+                            Cell(learner, _hash({**where, "learner": learner.canonical,
                                                  "code": {**code, "learner": versions["learner"][learner.canonical]}}),
-                                 derive_seed(coords, learner.canonical), versions["learner"][learner.canonical])
+                                 derive_seed(where, learner.canonical), versions["learner"][learner.canonical])
                             for learner in suite.learners)
                         unit_code = {k: code[k] for k in ("protocol", "preprocessing", "resampler")}
-                        result.units.append(WorkUnit(_hash({**coords, "code": code}), coords, spec,
-                                                     derive_seed(coords), rows, test, cells, unit_code))
+                        result.units.append(WorkUnit(_hash({**where, "code": code}), coords, spec,
+                                                     derive_seed(where), rows, test, cells, unit_code))
     return result
 
 
@@ -192,8 +186,10 @@ def _over_time(timeout):
 
 def _basics(unit, data):
     """The columns every row of a unit shares, as planned."""
-    return {**{k: unit.coords[k] for k in ("dataset", "dataset_checksum", "ratio", "size", "repeat", "fold")},
-            "preprocessing": json.dumps(unit.coords["preprocessing"]), "resampler": unit.resampler.canonical,
+    c = unit.coords
+    return {"dataset": c.dataset, "dataset_checksum": c.dataset_checksum, "ratio": c.point.ratio_label,
+            "size": c.point.size_label, "repeat": c.repeat, "fold": c.fold,
+            "preprocessing": json.dumps(list(c.preprocessing)), "resampler": unit.resampler.canonical,
             "unit_key": unit.key, "n_train": len(unit.train), "n_test": len(unit.test),
             "n_train_minority": None if data is None else int((data.y[unit.train] == data.minority).sum())}
 
@@ -208,8 +204,8 @@ def _code_versions(unit, versions):
 
 def failed_rows(unit, code_versions, error, base, cells=None, warning=None):
     """Rows of ``cells`` (default: all the unit's) stored as failed with ``error``."""
-    return [{**base, "key": c.key, "learner": c.learner.canonical, "seed": c.seed, "code_version": code_versions[c.key],
-             "status": "failed", "error": error, "warning": warning, "finished_at": now()}
+    return [CellRow(**base, key=c.key, learner=c.learner.canonical, seed=c.seed, code_version=code_versions[c.key],
+                    status="failed", error=error, warning=warning, finished_at=now())
             for c in (unit.cells if cells is None else cells)]
 
 
@@ -280,11 +276,11 @@ def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):
             done = time.perf_counter()
             metrics = score_cell(y_test, predicted, scores, data.minority, data.classes)
         except (Exception, SystemExit) as exc:
-            return {**row, "status": "failed", "error": f"{stage}: {_error_text(exc)}",
-                    "warning": _warning_text(caught, notes, printed.summary(stage)), "finished_at": now()}
-    return {**row, "status": "ok", "metrics": json.dumps(metrics), "fit_seconds": fitted - started,
-            "predict_seconds": done - fitted, "warning": _warning_text(caught, notes, printed.summary(stage)),
-            "finished_at": now()}
+            return CellRow(**row, status="failed", error=f"{stage}: {_error_text(exc)}",
+                           warning=_warning_text(caught, notes, printed.summary(stage)), finished_at=now())
+    return CellRow(**row, status="ok", metrics=json.dumps(metrics), fit_seconds=fitted - started,
+                   predict_seconds=done - fitted, warning=_warning_text(caught, notes, printed.summary(stage)),
+                   finished_at=now())
 
 
 def _warning_text(caught, notes=(), printed=None):
@@ -309,7 +305,7 @@ def execute(units, backend, stoppable=nullcontext):
     try:
         while True:
             for unit in islice(queue, max(0, 2 * backend.slots + 2 - waiting)):
-                backend.submit(unit, unit.coords["dataset"])
+                backend.submit(unit, unit.coords.dataset)
                 waiting += 1
             if not waiting:
                 return
@@ -334,7 +330,7 @@ def check_versions(unit, ran):
 def _labelled(unit, versions):
     yield "protocol", versions["protocol"]
     yield from ((f"preprocessing step {name}", version)
-                for name, version in zip(unit.coords["preprocessing"], versions["preprocessing"]))
+                for name, version in zip(unit.coords.preprocessing, versions["preprocessing"]))
     yield f"resampler {unit.resampler.title}", versions["resampler"]
     yield from ((f"learner {c.learner.title}", versions["learner"][c.learner.canonical]) for c in unit.cells)
 
@@ -440,16 +436,14 @@ class _Batch:
 
 def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True, backend="auto",
              scheduler=None, timeout=None):
-    """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return counts
-    {planned, reused, computed, failed, skipped_points}. ``timeout`` (default: the suite's
+    """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return RunCounts. ``timeout`` (default: the suite's
     ``protocol.timeout``) limits each unit's seconds. Raises Interrupted after SIGINT / SIGTERM."""
     stored = store.known_keys(full_plan.keys, include_failed=not retry_failed)
     todo = pending(full_plan, stored)
-    counts = {"planned": len(full_plan.keys), "reused": len(stored), "computed": 0, "failed": 0,
-              "skipped_points": len(full_plan.skipped)}
+    planned, computed, failed = len(full_plan.keys), 0, 0
     if not todo:
-        return counts
-    needed = {unit.coords["dataset"] for unit in todo}
+        return RunCounts(planned, len(stored), skipped_points=len(full_plan.skipped))
+    needed = {unit.coords.dataset for unit in todo}
     timeout = timeout or suite.protocol.timeout
     with _Signals() as signals:
         workers = open_backend(backend, run_unit, {ref: datasets[ref] for ref in needed},
@@ -470,10 +464,10 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
                         check_versions(unit, outcome.versions)
                         rows = outcome.rows
                     batch.add(rows)
-                    counts["computed"] += len(rows)
-                    counts["failed"] += sum(r["status"] == "failed" for r in rows)
+                    computed += len(rows)
+                    failed += sum(row.status == "failed" for row in rows)
                     bar.update(len(rows))
-                    bar.set_postfix(failed=counts["failed"], refresh=False)
+                    bar.set_postfix(failed=failed, refresh=False)
                 if batch.due():
                     batch.write()
         except Stopped:
@@ -484,7 +478,7 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
             bar.close()
     if signals.received:
         kept = len(store.known_keys(full_plan.keys))
-        raise Interrupted(f"stopped by {signals.received}: {kept} of {counts['planned']} planned cells are kept in "
-                          f"{store.path} ({counts['computed']} computed now); run the same command again to "
-                          f"compute the other {counts['planned'] - kept}")
-    return counts
+        raise Interrupted(f"stopped by {signals.received}: {kept} of {planned} planned cells are kept in "
+                          f"{store.path} ({computed} computed now); run the same command again to "
+                          f"compute the other {planned - kept}")
+    return RunCounts(planned, len(stored), computed, failed, len(full_plan.skipped))

@@ -16,18 +16,10 @@ from pathlib import Path
 import pandas as pd
 
 from .errors import StoreError
+from .records import CELL_COLUMNS, COLUMN_NAMES
 
 SCHEMA_VERSION = 1
-CELL_COLUMNS = (
-    ("key", "TEXT PRIMARY KEY"), ("unit_key", "TEXT"), ("dataset", "TEXT"), ("dataset_checksum", "TEXT"),
-    ("preprocessing", "TEXT"), ("ratio", "TEXT"), ("size", "TEXT"), ("repeat", "INTEGER"), ("fold", "INTEGER"),
-    ("resampler", "TEXT"), ("learner", "TEXT"), ("status", "TEXT"), ("error", "TEXT"), ("warning", "TEXT"),
-    ("metrics", "TEXT"),
-    ("n_train", "INTEGER"), ("n_train_minority", "INTEGER"), ("n_resampled", "INTEGER"), ("n_test", "INTEGER"),
-    ("resample_seconds", "REAL"), ("fit_seconds", "REAL"), ("predict_seconds", "REAL"),
-    ("code_version", "TEXT"), ("seed", "INTEGER"), ("finished_at", "TEXT"),
-)
-NAMES = [name for name, _ in CELL_COLUMNS]
+NAMES = list(COLUMN_NAMES)        # the cells table's columns: the fields of records.CellRow
 METRICS_AT = NAMES.index("metrics")
 READ_CHUNK = 100_000
 
@@ -109,10 +101,9 @@ class Store:
         return {row[0] for row in self._select("key", keys, status)}
 
     def write_cells(self, rows):
-        """Insert (or replace) the cells of whole work units in one transaction. ``rows`` are dicts by
-        column name (missing ones are NULL), with the metrics already as JSON text (workers encode them)."""
+        """Insert (or replace) the cells of whole work units (records.CellRow) in one transaction."""
         marks = ",".join("?" * len(NAMES))
-        values = [tuple(map(row.get, NAMES)) for row in rows]
+        values = [row.values() for row in rows]
         with self.db:
             self.db.executemany(f"INSERT OR REPLACE INTO cells VALUES ({marks})", values)
 

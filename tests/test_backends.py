@@ -311,11 +311,11 @@ def test_the_driver_writes_whole_units_in_batches(folder, monkeypatch):
         counts = run_plan(plan(suite, datasets), datasets, suite, db, progress=False)
     finally:
         db.close()
-    assert counts["computed"] == 2 * 2 * 3 * 2 * 2 == sum(map(len, batches))
+    assert counts.computed == 2 * 2 * 3 * 2 * 2 == sum(map(len, batches))
     # 10 cells or more per transaction (the last one: what is left), 2 learners = 2 cells per unit
     assert [len(b) for b in batches] == [10, 10, 10, 10, 8]
     for rows in batches:
-        per_unit = pd.Series([r["unit_key"] for r in rows]).value_counts()
+        per_unit = pd.Series([r.unit_key for r in rows]).value_counts()
         assert (per_unit == 2).all()
 
 
@@ -413,5 +413,5 @@ def test_a_signal_stops_a_run_cleanly_and_a_rerun_completes_it(uninterrupted, fo
                         f"in {store} ({kept} computed now); run the same command again to compute the other "
                         f"{len(reference) - kept}")
     counts, cells = run_cells(path, store)
-    assert (counts["reused"], counts["computed"]) == (kept, len(reference) - kept)
+    assert (counts.reused, counts.computed) == (kept, len(reference) - kept)
     assert metric_text(cells) == metric_text(reference)

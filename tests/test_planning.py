@@ -1,11 +1,15 @@
 """Planning without running: cell counts, key stability and pending-cell selection."""
-from dataclasses import replace
+from dataclasses import fields, replace
+from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from lopsided.benchmark import load_all
+from lopsided.records import CellRow, Coordinates, Point
 from lopsided.runner import pending, plan
 from lopsided.specs import MethodSpec
+from lopsided.store import Store
 from lopsided.suite import load_suite
 
 
@@ -60,3 +64,36 @@ def test_pending_keeps_only_cells_not_stored_and_drops_empty_units(suite, datase
     assert todo[0].key == full.units[1].key and len(todo[0].cells) == len(suite.learners) - 1
     assert sum(len(u.cells) for u in todo) == len(full.keys) - len(stored)
     assert pending(full, set(full.keys)) == []
+
+
+def test_the_committed_gate_cells_keep_their_keys():
+    """Keys hash Coordinates.payload(): the plan of bench/gate.toml today has exactly the keys of the
+    cells committed in results/gate (a change of the payload would orphan every stored cell)."""
+    root = Path(__file__).parents[1]
+    gate = load_suite(root / "bench" / "gate.toml")
+    committed = pd.read_csv(root / "results" / "gate" / "cells.csv")
+    assert set(plan(gate, load_all(gate)).keys) == set(committed["key"])
+
+
+def test_the_store_columns_are_the_fields_of_a_cell_row(tmp_path):
+    db = Store(tmp_path / "s.sqlite")
+    try:
+        table = [(name, kind, bool(primary)) for _, name, kind, _, _, primary in db.db.execute("PRAGMA table_info(cells)")]
+    finally:
+        db.close()
+    assert [name for name, _, _ in table] == [f.name for f in fields(CellRow)]
+    kinds = {name: kind for name, kind, _ in table}
+    assert {name: kinds[name] for name in ("key", "ratio", "repeat", "n_train", "fit_seconds", "metrics")} == {
+        "key": "TEXT", "ratio": "TEXT", "repeat": "INTEGER", "n_train": "INTEGER", "fit_seconds": "REAL",
+        "metrics": "TEXT"}
+    assert [name for name, _, primary in table if primary] == ["key"]
+
+
+def test_coordinates_leave_default_options_out_of_the_key_payload():
+    where = Coordinates("sklearn:wine", "abc", 7, 5, Point(2.0, "all"), 0, 1, ("snv",), "smote")
+    assert where.payload() == {"dataset": "sklearn:wine", "ratio": "2", "size": "all", "repeat": 0, "fold": 1,
+                               "dataset_checksum": "abc", "folds": 5, "suite_seed": 7, "preprocessing": ["snv"],
+                               "resampler": "smote"}
+    leaky = replace(where, split="random", holdout=0.25)
+    assert leaky.payload() == {**where.payload(), "split": "random", "holdout": 0.25}
+    assert str(leaky) == "sklearn:wine, ratio 2, size all, repeat 0, fold 1, split random"

@@ -57,7 +57,7 @@ def test_test_part_is_the_same_for_every_point_and_resampler(write_suite):
     units = plan(suite, datasets).units
     by_fold = {}
     for unit in units:
-        where = (unit.coords["dataset"], unit.coords["repeat"], unit.coords["fold"])
+        where = (unit.coords.dataset, unit.coords.repeat, unit.coords.fold)
         by_fold.setdefault(where, set()).add(unit.test.tobytes())
         assert not set(unit.train) & set(unit.test)
     assert all(len(tests) == 1 for tests in by_fold.values())

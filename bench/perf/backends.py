@@ -36,6 +36,7 @@ from runner_overhead import plain_loop, timed
 from threadpoolctl import threadpool_limits
 
 from lopsided.benchmark import load_all
+from lopsided.records import CellRow
 from lopsided.runner import BATCH_CELLS, plan, run_plan
 from lopsided.store import Store
 from lopsided.suite import load_suite
@@ -159,7 +160,7 @@ def timed_runs_in(work, rounds):
 
 
 def synthetic_rows(n_units, learners=10):
-    """Rows shaped as the runner's (metrics as JSON text, as workers send them): 10 learners per unit,
+    """CellRows as the runner makes them (metrics as JSON text, as workers send them): 10 learners per unit,
     metrics of a two-class dataset."""
     code = json.dumps({"learner": "lopsided 0.1.0", "lopsided": "0.1.0", "preprocessing": [], "protocol": 1,
                        "resampler": "lopsided 0.1.0"}, sort_keys=True, separators=(",", ":"))
@@ -170,17 +171,17 @@ def synthetic_rows(n_units, learners=10):
         rows = []
         for learner in range(learners):
             value = ((u * learners + learner) % 997) / 997
-            rows.append({
-                "key": f"{u:012d}{learner:012d}", "unit_key": f"{u:024d}", "dataset": f"keel:set{dataset:03d}",
-                "dataset_checksum": f"{dataset:016x}", "preprocessing": "[]", "ratio": ["natural", "2", "4", "8"][point],
-                "size": "all", "repeat": fold // 5, "fold": fold % 5, "resampler": f"resampler-{resampler:02d}",
-                "learner": f"learner-{learner}", "status": "ok", "error": None, "warning": None,
-                "metrics": json.dumps({m: value for m in ("balanced_accuracy", "g_mean", "mcc", "f1_minority",
-                                                          "average_precision", "roc_auc", "sensitivity",
-                                                          "specificity", "recall:negative", "recall:positive")}),
-                "n_train": 400, "n_train_minority": 40, "n_resampled": 720, "n_test": 100,
-                "resample_seconds": 0.01, "fit_seconds": 0.05, "predict_seconds": 0.001, "code_version": code,
-                "seed": u * learners + learner, "finished_at": "2026-12-03T08:00:00+00:00"})
+            rows.append(CellRow(
+                key=f"{u:012d}{learner:012d}", unit_key=f"{u:024d}", dataset=f"keel:set{dataset:03d}",
+                dataset_checksum=f"{dataset:016x}", preprocessing="[]", ratio=["natural", "2", "4", "8"][point],
+                size="all", repeat=fold // 5, fold=fold % 5, resampler=f"resampler-{resampler:02d}",
+                learner=f"learner-{learner}", status="ok",
+                metrics=json.dumps({m: value for m in ("balanced_accuracy", "g_mean", "mcc", "f1_minority",
+                                                       "average_precision", "roc_auc", "sensitivity",
+                                                       "specificity", "recall:negative", "recall:positive")}),
+                n_train=400, n_train_minority=40, n_resampled=720, n_test=100,
+                resample_seconds=0.01, fit_seconds=0.05, predict_seconds=0.001, code_version=code,
+                seed=u * learners + learner, finished_at="2026-12-03T08:00:00+00:00"))
         yield rows
 
 

@@ -48,7 +48,7 @@ def plain_loop(suite, datasets, units):
     """What a careful user would write by hand: resample once per training set, fit every learner."""
     results = []
     for unit in units:
-        data = datasets[unit.coords["dataset"]]
+        data = datasets[unit.coords.dataset]
         X_train, y_train = data.X[unit.train], data.y[unit.train]
         X_test, y_test = data.X[unit.test], data.y[unit.test]
         X_res, y_res = make_resampler(unit.resampler, unit.seed).fit_resample(X_train, y_train)

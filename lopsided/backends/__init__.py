@@ -17,6 +17,7 @@ Dask cluster); a unit carries only its coordinates. ``serial`` runs units in thi
 LocalCluster of ``jobs`` single-threaded worker processes on 127.0.0.1, or a running one at ``scheduler``.
 """
 from dataclasses import dataclass
+from typing import Any, Callable, Protocol
 
 from ..errors import LopsidedError, unknown
 
@@ -33,7 +34,22 @@ class Lost:
     reason: str
 
 
-def choose(backend, jobs, scheduler):
+class Backend(Protocol):
+    """What the runner needs from a backend (see the module docstring)."""
+
+    @property
+    def slots(self) -> int: ...
+
+    def submit(self, unit: Any, ref: str) -> None: ...
+
+    def finished(self, timeout: float) -> list[tuple[Any, Any]]: ...
+
+    def cancel(self) -> int: ...
+
+    def close(self) -> None: ...
+
+
+def choose(backend: str, jobs: int, scheduler: str | None) -> str:
     """The backend name to use: ``auto`` is dask with a scheduler, processes for jobs > 1, else serial."""
     if backend == "auto":
         backend = "dask" if scheduler else "processes" if jobs > 1 else "serial"
@@ -50,7 +66,8 @@ def choose(backend, jobs, scheduler):
     return backend
 
 
-def open_backend(backend, task, datasets, shared=(), jobs=1, scheduler=None, timeout=None):
+def open_backend(backend: str, task: Callable[..., Any], datasets: dict[str, Any], shared: tuple = (), jobs: int = 1,
+                 scheduler: str | None = None, timeout: float | None = None) -> Backend:
     """A started backend that runs ``task(unit, datasets[ref], *shared)``; ``task`` must be importable
     by its module path (worker processes look it up there). ``task`` enforces a unit's ``timeout``
     itself (containment.py); a backend that can stop a worker stops one that runs far past it."""

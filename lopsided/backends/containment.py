@@ -107,8 +107,13 @@ def _size(characters):
 
 
 _thread = threading.local()
-_lock = threading.Lock()
-_installed = {"count": 0, "streams": None}
+
+
+class _Installed:
+    """How many threads are inside ``captured_output`` and the streams that were there before the first."""
+    lock = threading.Lock()
+    count = 0
+    streams: tuple = ()
 
 
 class _PerThread:
@@ -137,18 +142,18 @@ class _PerThread:
 def captured_output():
     """A Printed of everything this thread writes to sys.stdout or sys.stderr inside the block. The
     stand-ins are installed while any thread is inside such a block and removed after the last one."""
-    with _lock:
-        if _installed["count"] == 0:
-            _installed["streams"] = (sys.stdout, sys.stderr)
+    with _Installed.lock:
+        if _Installed.count == 0:
+            _Installed.streams = (sys.stdout, sys.stderr)
             sys.stdout, sys.stderr = _PerThread(sys.stdout), _PerThread(sys.stderr)
-        _installed["count"] += 1
+        _Installed.count += 1
     printed = Printed()
     _thread.printed = printed
     try:
         yield printed
     finally:
         _thread.printed = None
-        with _lock:
-            _installed["count"] -= 1
-            if _installed["count"] == 0:
-                sys.stdout, sys.stderr = _installed["streams"]
+        with _Installed.lock:
+            _Installed.count -= 1
+            if _Installed.count == 0:
+                sys.stdout, sys.stderr = _Installed.streams

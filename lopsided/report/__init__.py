@@ -20,7 +20,7 @@ from ..analysis import AnalysisError, compare
 from ..analysis.cdplot import draw
 from ..analysis.words import caption, claims
 from ..metrics import METRICS
-from ..protocol import point_label
+from ..records import point_label
 from ..specs import MethodSpec
 from .citations import citation_block
 from .figures import SPREAD, sweep

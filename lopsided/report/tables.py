@@ -3,7 +3,7 @@ import numpy as np
 import pandas as pd
 
 from ..metrics import METRICS
-from ..protocol import point_label
+from ..records import point_label
 
 KEYS = ["dataset", "ratio", "size", "resampler", "learner"]
 COMBINED = " + "

@@ -11,7 +11,7 @@ import math
 
 from ..analysis import AnalysisError, compare
 from ..analysis.compare import MIN_DATASETS
-from ..protocol import point_label
+from ..records import point_label
 from .tables import method_matrix
 
 BANDS = ((1.0, 3.0, "IR < 3"), (3.0, 9.0, "3 <= IR < 9"), (9.0, math.inf, "IR >= 9"))

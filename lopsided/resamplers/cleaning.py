@@ -3,16 +3,34 @@ import numpy as np
 from sklearn.neighbors import KNeighborsClassifier
 
 from .base import ResamplingError, as_rng, check_xy
-from .neighbours import neighbours_within
+from .neighbours import neighbours_among
+
+
+def _nearest_other(X, rows):
+    """Each given row's nearest other row of X (itself excluded even among duplicates)."""
+    if not len(rows):
+        return rows
+    return neighbours_among(X[rows], X, 1, same_rows=rows)[:, 0]
 
 
 def tomek_links(X, y):
     """(i, j) index pairs, i < j, of opposite-class mutual nearest neighbours (Tomek 1976,
-    IEEE Trans. SMC 6:769, "Two modifications of CNN")."""
-    nearest = neighbours_within(X, 1)[:, 0]
-    i = np.arange(len(X))
-    linked = (nearest[nearest] == i) & (y[nearest] != y) & (i < nearest)
-    return np.c_[i[linked], nearest[linked]]
+    IEEE Trans. SMC 6:769, "Two modifications of CNN").
+
+    A link joins two classes, so at least one member is outside the largest class: only those rows
+    and the largest-class rows they name as nearest are searched, not every row."""
+    labels, counts = np.unique(y, return_counts=True)
+    largest = labels[counts.argmax()]
+    nearest = np.full(len(y), -1)                   # -1: not searched
+    outside = np.flatnonzero(y != largest)
+    nearest[outside] = _nearest_other(X, outside)
+    named = np.unique(nearest[outside])
+    inside = named[y[named] == largest]
+    nearest[inside] = _nearest_other(X, inside)
+    i = np.flatnonzero(nearest >= 0)
+    j = nearest[i]
+    linked = (nearest[j] == i) & (y[j] != y[i]) & (i < j)
+    return np.c_[i[linked], j[linked]]
 
 
 def _larger_class_member(pairs, y):
@@ -48,10 +66,13 @@ class TomekCleaning:
 def enn_removals(X, y, k, candidates):
     """Boolean mask: candidate rows whose k nearest neighbours are mostly (> k / 2) of other classes,
     all other classes counted together; exactly k / 2 keeps the row (Wilson 1972, IEEE Trans. SMC 2:408,
-    editing rule)."""
-    near = neighbours_within(X, k)
-    other = (y[near] != y[:, None]).sum(axis=1)
-    return candidates & (other > near.shape[1] / 2)
+    editing rule). Only candidate rows are searched; a row equally far from the k-th and (k + 1)-th
+    nearest counts the one the neighbour search returns first."""
+    rows = np.flatnonzero(candidates)
+    near = neighbours_among(X[rows], X, k, same_rows=rows)      # only candidates can go: only they ask
+    removals = np.zeros(len(y), bool)
+    removals[rows] = (y[near] != y[rows, None]).sum(axis=1) > near.shape[1] / 2
+    return removals
 
 
 class NeighbourEditing:

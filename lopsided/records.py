@@ -1,0 +1,138 @@
+"""The records that travel from the planner through the workers into the store: small frozen dataclasses.
+
+``Point`` is a protocol point with its ratio and size kept as numbers (or the words 'natural',
+'balanced', 'all') and a separate display label; ``Coordinates`` says where a work unit sits and is what
+its cell keys hash; ``CellRow`` is one stored cell, and the store's columns are derived from its fields;
+``RunCounts`` is what a run did. Keys hash exactly the payload they always hashed, so stored cells stay
+valid.
+"""
+from dataclasses import asdict, dataclass, field, fields
+from typing import Any, get_type_hints
+
+
+def point_label(value: float | int | str) -> str:
+    """'natural' / 'all' stay; numbers print without a trailing .0."""
+    return value if isinstance(value, str) else f"{value:g}"
+
+
+@dataclass(frozen=True)
+class Point:
+    """A training imbalance ratio (majority:minority, >= 1, or 'natural' / 'balanced') and size (rows, or 'all')."""
+
+    ratio: float | str
+    size: int | str
+
+    @property
+    def ratio_label(self) -> str:
+        return point_label(self.ratio)
+
+    @property
+    def size_label(self) -> str:
+        return point_label(self.size)
+
+    def __str__(self) -> str:
+        return f"ratio {self.ratio_label}, size {self.size_label}"
+
+
+@dataclass(frozen=True)
+class Coordinates:
+    """Where a work unit sits: dataset (with its checksum), suite seed, fold design, point, repeat, fold,
+    preprocessing and resampler. ``payload`` is what the unit's and its cells' keys hash."""
+
+    dataset: str
+    dataset_checksum: str
+    suite_seed: int
+    folds: int
+    point: Point
+    repeat: int
+    fold: int
+    preprocessing: tuple[str, ...]
+    resampler: str
+    holdout: float | None = None
+    test: str = "folds"
+    split: str = "grouped"
+
+    def payload(self) -> dict[str, Any]:
+        """The key payload; options at their defaults are left out, so adding one changed no key."""
+        where = {"dataset": self.dataset, "ratio": self.point.ratio_label, "size": self.point.size_label,
+                 "repeat": self.repeat, "fold": self.fold, "dataset_checksum": self.dataset_checksum,
+                 "folds": self.folds, "suite_seed": self.suite_seed, "preprocessing": list(self.preprocessing),
+                 "resampler": self.resampler}
+        if self.holdout is not None:
+            where["holdout"] = self.holdout
+        if self.test != "folds":
+            where["test"] = self.test
+        if self.split != "grouped":
+            where["split"] = self.split
+        return where
+
+    def __str__(self) -> str:
+        split = f", split {self.split}" if self.split != "grouped" else ""
+        return f"{self.dataset}, {self.point}, repeat {self.repeat}, fold {self.fold}{split}"
+
+
+@dataclass(frozen=True)
+class CellRow:
+    """One stored cell: coordinates, outcome, sizes, timings and the code that ran. The store's ``cells``
+    table has exactly these columns, in this order; ``metrics`` is JSON text {metric: value}."""
+
+    key: str
+    unit_key: str
+    dataset: str
+    dataset_checksum: str
+    preprocessing: str            # JSON list of the preprocessing steps
+    ratio: str                    # the point's display labels (Point.ratio_label, Point.size_label)
+    size: str
+    repeat: int
+    fold: int
+    resampler: str
+    learner: str
+    status: str                   # 'ok' or 'failed'
+    error: str | None = None
+    warning: str | None = None
+    metrics: str | None = None
+    n_train: int | None = None
+    n_train_minority: int | None = None
+    n_resampled: int | None = None
+    n_test: int | None = None
+    resample_seconds: float | None = None
+    fit_seconds: float | None = None
+    predict_seconds: float | None = None
+    code_version: str | None = None
+    seed: int | None = None
+    finished_at: str | None = field(default=None)
+
+    def values(self) -> tuple:
+        return tuple(getattr(self, name) for name in COLUMN_NAMES)
+
+    def as_dict(self) -> dict[str, Any]:
+        return asdict(self)
+
+
+_SQL_TYPES = {str: "TEXT", int: "INTEGER", float: "REAL"}
+
+
+def _sql_type(hint: Any) -> str:
+    plain = next((t for t in getattr(hint, "__args__", (hint,)) if t is not type(None)), str)
+    return _SQL_TYPES[plain]
+
+
+CELL_COLUMNS = tuple((f.name, _sql_type(hint) + (" PRIMARY KEY" if f.name == "key" else ""))
+                     for f, hint in zip(fields(CellRow), get_type_hints(CellRow).values()))
+COLUMN_NAMES = tuple(name for name, _ in CELL_COLUMNS)
+
+
+@dataclass(frozen=True)
+class RunCounts:
+    """What one run did with its plan's cells."""
+
+    planned: int
+    reused: int
+    computed: int = 0
+    failed: int = 0
+    skipped_points: int = 0
+
+    def plus(self, other: "RunCounts") -> "RunCounts":
+        """Work of a second plan (the leakage comparison) counted as work done, not as planned."""
+        return RunCounts(self.planned, self.reused + other.reused, self.computed + other.computed,
+                         self.failed + other.failed, self.skipped_points)
