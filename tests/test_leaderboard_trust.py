@@ -127,11 +127,11 @@ def test_a_sweep_uses_the_same_datasets_at_every_point(tmp_path):
     kept = comparable_datasets(scores.assign(value=scores["balanced_accuracy_mean"]), "ratio", ["natural", "2", "8"],
                                {("x", "lr"), ("y", "lr")})
     assert kept == ["A", "B"]
-    drawn = sweep(scores, "balanced_accuracy", "ratio", "all", ["natural", "2", "8"], ["x", "y"], str(tmp_path / "s"))
+    drawn = sweep(scores, "balanced_accuracy", "ratio", "all", ["natural", 2, 8], ["x", "y"], str(tmp_path / "s"))
     assert drawn["datasets"] == ["A", "B"] and drawn["left_out"] == ["C"]
     assert all(Path(p).stat().st_size > 0 for p in drawn["paths"])
-    place = positions(["natural", "2", "8"], "ratio")
-    assert place["natural"] < place["2"] < place["8"]       # 'natural' drawn beside the scale, at the left
+    place = positions(["natural", 2, 8.0, 2.5], "ratio")         # the suite's values: numbers stay numbers
+    assert place == {"2": 2.0, "2.5": 2.5, "8": 8.0, "natural": 1.0}   # 'natural' beside the scale: half the lowest
 
 
 def test_winner_rows_split_the_natural_point_by_imbalance_band():

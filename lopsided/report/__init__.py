@@ -182,15 +182,14 @@ def sweep_tasks(suite, scores, figures_dir):
     protocol = suite["protocol"]
     for axis, values, others in (("ratio", protocol["ratios"], protocol["sizes"]),
                                  ("size", protocol["sizes"], protocol["ratios"])):
-        labels = [point_label(v) for v in values]
-        if len(labels) < 2:
+        if len(values) < 2:
             continue
         for fixed in map(point_label, others):
             other = "size" if axis == "ratio" else "ratio"
             rows = scores[scores[other] == fixed]
             for metric in metrics:
                 if f"{metric}_mean" in rows.columns:
-                    tasks.append((rows, metric, axis, fixed, labels, order,
+                    tasks.append((rows, metric, axis, fixed, list(values), order,
                                   str(figures_dir / _slug("sweep", metric, axis, fixed))))
     return tasks
 

@@ -10,6 +10,8 @@ import pandas as pd
 from matplotlib.figure import Figure
 from matplotlib.ticker import NullFormatter
 
+from ..records import point_label
+
 # Our palette: every pair at least 13 CIE76 units apart in normal vision and under simulated deuteranopia
 # and protanopia (Machado et al. 2009; checked in tests/test_site.py); each series also has its own marker.
 COLOURS = ["#1d2935", "#2f7f79", "#c8553d", "#d9a441", "#6c5b9b", "#4c8fc6", "#0209db", "#0e0071",
@@ -27,10 +29,11 @@ def comparable_datasets(rows, axis, values, methods):
 
 
 def positions(values, axis):
-    """x position of each point label: numbers on a log scale, words beside the numbers."""
-    numbers = sorted(float(v) for v in values if _is_number(v))
-    words = [v for v in values if not _is_number(v)]
-    place = {v: float(v) for v in values if _is_number(v)}
+    """{display label: x position} of the protocol's ``values`` (numbers, or words such as 'natural'):
+    numbers on a log scale at their own value, words beside them."""
+    numbers = sorted(v for v in values if not isinstance(v, str))
+    words = [v for v in values if isinstance(v, str)]
+    place = {point_label(v): float(v) for v in numbers}
     if not numbers:
         return {w: float(i + 1) for i, w in enumerate(words)}
     low, high = numbers[0], numbers[-1]
@@ -39,29 +42,23 @@ def positions(values, axis):
     return place
 
 
-def _is_number(text):
-    try:
-        float(text)
-    except (TypeError, ValueError):
-        return False
-    return True
-
-
 def sweep(scores, metric, axis, fixed, values, order, stem):
-    """Mean ``metric`` over the same datasets at each of ``values`` of ``axis`` ('ratio' or 'size'), at the
-    ``fixed`` label of the other axis. Writes ``stem``.svg and .png; returns a dict with the paths, the
-    datasets drawn and those left out, or None when fewer than two points or no dataset qualify."""
+    """Mean ``metric`` over the same datasets at each of the protocol's ``values`` of ``axis`` ('ratio' or
+    'size': numbers or words, matched to the scores by their display label), at the ``fixed`` label of the
+    other axis. Writes ``stem``.svg and .png; returns a dict with the paths, the datasets drawn and those
+    left out, or None when fewer than two points or no dataset qualify."""
     other = "size" if axis == "ratio" else "ratio"
     rows = scores[scores[other] == fixed].assign(value=lambda t: t[f"{metric}_mean"])
-    values = [v for v in values if v in set(rows[axis])]
+    values = [v for v in values if point_label(v) in set(rows[axis])]
     if len(values) < 2:
         return None
+    labels = [point_label(v) for v in values]
     methods = set(zip(rows["resampler"], rows["learner"]))
-    kept = comparable_datasets(rows, axis, values, methods)
+    kept = comparable_datasets(rows, axis, labels, methods)
     left_out = sorted(set(rows["dataset"]) - set(kept))
     if not kept:
         return {"datasets": [], "left_out": left_out, "paths": None}
-    rows = rows[rows["dataset"].isin(kept) & rows[axis].isin(values)]
+    rows = rows[rows["dataset"].isin(kept) & rows[axis].isin(labels)]
     place = positions(values, axis)
     learners = list(dict.fromkeys(rows["learner"]))
     fig = Figure(figsize=(3.4 * len(learners) + 1.6, 3.2))
@@ -80,8 +77,9 @@ def sweep(scores, metric, axis, fixed, values, order, stem):
 
 
 def _panel(ax, part, axis, values, place, order):
-    numeric = [v for v in values if _is_number(v)]
-    words = [v for v in values if not _is_number(v)]
+    numeric = [point_label(v) for v in values if not isinstance(v, str)]
+    words = [v for v in values if isinstance(v, str)]
+    values = numeric + words
     drawn = [r for r in order if r in set(part["resampler"])]
     for i, resampler in enumerate(drawn):
         colour = COLOURS[i % len(COLOURS)]

@@ -31,7 +31,7 @@ def winner_rows(scores, suite, meta, alpha=0.05, rope=0.01):
     protocol = suite["protocol"]
     ratios, sizes = [point_label(r) for r in protocol["ratios"]], [point_label(s) for s in protocol["sizes"]]
     rows = []
-    for ratio in ratios:
+    for value, ratio in zip(protocol["ratios"], ratios):
         matrix = method_matrix(scores, suite["metrics"][0], ratio, sizes[0])
         if ratio == "natural":
             for _, _, label in BANDS:
@@ -39,7 +39,7 @@ def winner_rows(scores, suite, meta, alpha=0.05, rope=0.01):
                 rows.append(_row("imbalance band", label, f"natural ratio, size {sizes[0]}", matrix.loc[members],
                                  alpha, rope))
         else:
-            band = "IR = 1" if ratio == "balanced" else band_of(float(ratio))
+            band = "IR = 1" if ratio == "balanced" else band_of(value)
             rows.append(_row("imbalance band", band, f"ratio {ratio}, size {sizes[0]}", matrix, alpha, rope))
     if len(sizes) > 1:
         for size in sizes:
