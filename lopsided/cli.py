@@ -134,7 +134,7 @@ def main(argv=None):
         if args.debug:
             traceback.print_exc()
         print("lopsided: error: " + " ".join(str(exc).split()), file=sys.stderr)   # always one line
-        return 2
+        return getattr(exc, "exit_code", 2)     # 2, or 130 / 143 for a run stopped by SIGINT / SIGTERM
     except BrokenPipeError:
         # The reader (head, less, grep -q) closed the pipe: it has what it wanted. Exit quietly with 0 so
         # `set -o pipefail` scripts do not fail; send what is still buffered to devnull so the exit flush is quiet.

@@ -377,7 +377,12 @@ class Stopped(BaseException):
 
 
 class Interrupted(LopsidedError):
-    """A run stopped by SIGINT or SIGTERM; every finished cell is in the store."""
+    """A run stopped by SIGINT or SIGTERM; every finished cell is in the store. ``exit_code`` is the
+    shell's convention for a process ended by that signal: 128 + its number (130, 143)."""
+
+    def __init__(self, message, signal_name):
+        super().__init__(message)
+        self.exit_code = 128 + signal.Signals[signal_name].value
 
 
 class _Signals:
@@ -480,5 +485,5 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
         kept = len(store.known_keys(full_plan.keys))
         raise Interrupted(f"stopped by {signals.received}: {kept} of {planned} planned cells are kept in "
                           f"{store.path} ({computed} computed now); run the same command again to "
-                          f"compute the other {planned - kept}")
+                          f"compute the other {planned - kept}", signals.received)
     return RunCounts(planned, len(stored), computed, failed, len(full_plan.skipped))

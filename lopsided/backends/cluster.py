@@ -2,7 +2,10 @@
 blocked algorithms and task scheduling"), local or remote.
 
 Without a scheduler address, a LocalCluster of ``jobs`` worker processes with one thread each starts
-on 127.0.0.1 (no dashboard; its small HTTP server on a free loopback port) and stops with the run.
+on 127.0.0.1 (no dashboard; its small HTTP server on a free loopback port) and stops with the run. Its
+own log stays quiet below CRITICAL: what matters to a run (a failed task, a lost worker) comes back
+through the tasks' results, and a run stopped mid-way would otherwise end with workers' complaints
+about the scheduler they lost.
 With one, the running cluster is used as it is: its workers need lopsided and the suite's plugins at
 the driver's versions (each result names the versions its worker ran; the runner refuses a mismatch).
 Each dataset is scattered to every worker once, when the backend opens; a task carries only the
@@ -44,7 +47,7 @@ def _local_cluster(dask, distributed, jobs, task):
         if forkserver:     # after Dask set its own preload list (once per process), so that ours stands
             distributed.utils.get_mp_context().set_forkserver_preload(["distributed", task.__module__])
         return distributed.LocalCluster(
-            n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", silence_logs=logging.ERROR,
+            n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", silence_logs=logging.CRITICAL,
             env=THREAD_VARIABLES, scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})
 
 
