@@ -1,13 +1,14 @@
 """Every built-in resampler against a brute-force computation of its published definition
 (scipy.spatial distances and plain loops), plus determinism and degenerate inputs."""
 import sys
+import warnings
 
 import numpy as np
 import pytest
 from scipy.spatial.distance import cdist
 
 from lopsided.resamplers import BUILTIN, make_resampler, resolve
-from lopsided.resamplers.base import ResamplingError
+from lopsided.resamplers.base import ResamplingError, check_xy
 from lopsided.resamplers.cleaning import NeighbourEditing, OneSidedSelection, TomekCleaning, tomek_links
 from lopsided.resamplers.clusters import KMeansCentres
 from lopsided.resamplers.nearmiss import NearMissUnder
@@ -144,6 +145,82 @@ def test_enn_removes_exactly_the_majority_samples_its_neighbours_outvote():
     np.testing.assert_array_equal(Xa, X[~everyone])
 
 
+def with_relabelled_copies(sizes, seed, copies=12):
+    """Gaussian classes (class c ~ N(0.8 c, I), 3 features) plus exact copies of ``copies`` distinct rows
+    under the next label: each copied row and its copy are at distance 0 with opposite labels. Returns
+    X, y and the indices of both members of every such pair."""
+    rng = np.random.default_rng(seed)
+    X = np.concatenate([rng.normal(0.8 * c, 1.0, size=(n, 3)) for c, n in enumerate(sizes)])
+    y = np.repeat(np.arange(len(sizes)), sizes)
+    picked = rng.choice(len(X), copies, replace=False)
+    paired = np.r_[picked, len(X) + np.arange(copies)]
+    return np.r_[X, X[picked]], np.r_[y, (y[picked] + 1) % len(sizes)], paired
+
+
+def other_class_votes(X, y, k):
+    """Fewest and most other-class rows among the k nearest other rows of each row (full distance matrix,
+    the row itself left out by index), over every choice among rows equally far at the k-th place: a
+    copied row and its copy are equally far from any third row, so that choice exists here."""
+    D = cdist(X, X)
+    np.fill_diagonal(D, np.inf)
+    kth = np.sort(D, axis=1)[:, k - 1:k]
+    other = y[None, :] != y[:, None]
+    closer, tied = D < kth, D == kth
+    slots = k - closer.sum(axis=1)
+    sure = (closer & other).sum(axis=1)
+    return (sure + np.maximum(0, slots - (tied & ~other).sum(axis=1)),
+            sure + np.minimum(slots, (tied & other).sum(axis=1)))
+
+
+@pytest.mark.parametrize("sizes", [(150, 40), (120, 60, 25)])
+@pytest.mark.parametrize("k", [1, 3, 4])
+@pytest.mark.parametrize("classes", ["majority", "all"])
+def test_enn_counts_an_identical_row_of_another_class_as_a_neighbour(sizes, k, classes):
+    """Wilson (1972) on rows with exact copies under another label: the copy is a neighbour at distance 0
+    and only the row itself is left out (by index, not by 'the first row found is the row itself').
+    Brute force: a candidate (the largest class, or every class) goes when other classes together hold
+    more than k / 2 of its k nearest other rows. Rows whose vote depends on which of two equally far
+    rows counts (a copy pair at the k-th place) may go either way; every other row is decided, and with
+    k = 1 every candidate member of a copy pair must go."""
+    X, y, paired = with_relabelled_copies(sizes, seed=len(sizes) + k)
+    fewest, most = other_class_votes(X, y, k)
+    candidates = np.ones(len(y), bool) if classes == "all" else y == 0
+    surely, maybe = candidates & (fewest > k / 2), candidates & (most > k / 2)
+    assert (surely != maybe).sum() <= len(y) // 20          # nearly every row is decided
+    Xr, yr = NeighbourEditing(neighbours=k, classes=classes).fit_resample(X, y)
+    gone = removed_rows(X, y, Xr, yr)
+    assert set(np.flatnonzero(surely)) <= gone <= set(np.flatnonzero(maybe))
+    if k == 1:
+        assert candidates[paired].any() and surely[paired[candidates[paired]]].all()
+
+
+def removed_rows(X, y, X_out, y_out):
+    """Indices of the rows of (X, y) missing from the output, after checking that the output keeps the
+    other rows unchanged and in order (a row and its label identify it: copies carry another label)."""
+    where = {(tuple(row), label): i for i, (row, label) in enumerate(zip(X, y))}
+    kept = [where[tuple(row), label] for row, label in zip(X_out, y_out)]
+    assert kept == sorted(kept)
+    return set(range(len(X))) - set(kept)
+
+
+@pytest.mark.parametrize("sizes", [(150, 40), (120, 60, 25)])
+def test_tomek_links_include_identical_rows_of_two_classes(sizes):
+    """Tomek (1976) on the same data: (a, b) of different classes with no row strictly closer to either
+    than they are to each other. Every copy pair is a link (distance 0), and the links found are exactly
+    the brute-force ones, also those between two classes other than the largest."""
+    X, y, paired = with_relabelled_copies(sizes, seed=7)
+    D = cdist(X, X)
+    np.fill_diagonal(D, np.inf)
+    nearest = D.min(axis=1)
+    brute = {(i, j) for i, j in zip(*np.nonzero(D == nearest[:, None]))
+             if i < j and y[i] != y[j] and D[i, j] == nearest[j]}
+    half = len(paired) // 2
+    assert {(min(a, b), max(a, b)) for a, b in zip(paired[:half], paired[half:])} <= brute
+    assert {tuple(p) for p in tomek_links(X, y).tolist()} == brute
+    if len(sizes) == 3:
+        assert any(0 not in (y[i], y[j]) for i, j in brute)
+
+
 @pytest.mark.parametrize("version", [1, 2, 3])
 def test_nearmiss_picks_per_its_distance_rule(version):
     """Mani & Zhang (2003): NM-1 nearest 3 minority, NM-2 farthest 3, NM-3 short list then farthest."""
@@ -267,3 +344,18 @@ def test_the_example_plugin_joins_a_suite(write_suite, tmp_path, monkeypatch, ca
     printed = capsys.readouterr().out
     assert "144 reused" in printed and "48 computed (0 failed)" in printed
     assert "lopsided_jitter_demo:JitterOver?spread=0.2" in (tmp_path / "o" / "leaderboard.md").read_text()
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf, None])
+def test_check_xy_finds_every_non_finite_value_and_accepts_huge_finite_ones(bad):
+    """The fast path (a finite sum) must not hide a NaN among values whose sum overflows, nor refuse them."""
+    X, y = np.full((6, 3), 1e308), np.array([0, 0, 0, 1, 1, 1])
+    X[0, 0] = -1e308
+    if bad is None:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error")          # no overflow warning leaks out of the check
+            assert check_xy(X, y)[0] is not None
+    else:
+        X[4, 2] = bad
+        with pytest.raises(ResamplingError, match="NaN or infinite"):
+            check_xy(X, y)
