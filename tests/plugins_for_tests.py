@@ -129,3 +129,18 @@ class Mutates(Misbehaving):
         X[:] = 0.0
         y[:] = y[0]
         return original
+
+
+class NamesItsProcess(Misbehaving):
+    """Writes its process id to the file ``pids`` (one line per call), pauses ``pause`` seconds, then
+    passes the data through: a test can kill the worker that runs it."""
+
+    def __init__(self, pids="", pause=2.0, random_state=None):
+        super().__init__(random_state)
+        self.pids, self.pause = pids, pause
+
+    def fit_resample(self, X, y):
+        with open(self.pids, "a") as handle:
+            handle.write(f"{os.getpid()}\n")
+        time.sleep(self.pause)
+        return X, y

@@ -3,6 +3,7 @@ megabyte and input changed in place each fail (or mark) that method's cells by n
 on with every other cell computed exactly as without them."""
 import json
 import os
+import signal
 import subprocess
 import sys
 import textwrap
@@ -143,7 +144,6 @@ def test_the_time_limit_reaches_a_loop_in_another_thread_and_leaves_nothing_behi
 
 
 def test_time_limit_in_the_main_thread_interrupts_a_sleep_and_restores_the_alarm_handler():
-    import signal
     before = signal.getsignal(signal.SIGALRM)
     started = time.monotonic()
     with pytest.raises(UnitTimeout):
@@ -170,3 +170,31 @@ def test_output_is_captured_per_thread_and_the_streams_come_back():
     assert printed.characters == 5001 and len(printed.start) == 2000 and seen["other"] == 22
     assert printed.summary("resampler A").startswith("resampler A printed 5.0 kB")
     assert sys.stdout is stdout
+
+
+def test_a_worker_killed_from_outside_costs_only_the_unit_it_was_running(tmp_path):
+    """The system may kill a worker (out of memory): that unit's cells fail with the signal named, a new
+    worker takes over and every other cell is computed."""
+    pids = tmp_path / "pids"
+    suite = write_suite(tmp_path, "killed", ["none"], timeout=60)
+    plugin = f'{{ name = "plugins_for_tests:NamesItsProcess", params = {{ pids = "{pids}", pause = 1.5 }} }}'
+    suite.write_text(suite.read_text().replace("repeats = 1", "repeats = 2")
+                     .replace('resamplers = ["none"]', f'resamplers = ["none", {plugin}]'))
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([str(HERE), os.environ.get("PYTHONPATH", "")])}
+    run = subprocess.Popen([sys.executable, "-m", "lopsided.cli", "run", str(suite), "--quiet", "--jobs", "2",
+                            "--out", str(tmp_path / "board")], env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                           text=True)
+    deadline = time.monotonic() + 120
+    while not (pids.exists() and pids.read_text().strip()) and run.poll() is None and time.monotonic() < deadline:
+        time.sleep(0.05)
+    assert pids.exists(), run.communicate()[1]
+    victim = int(pids.read_text().split()[0])
+    os.kill(victim, signal.SIGKILL)
+    out, err = run.communicate(timeout=300)
+    assert run.returncode == 0, err
+    cells = pd.read_csv(tmp_path / "board" / "cells.csv")
+    failed = cells[cells["status"] == "failed"]
+    assert len(cells) == 2 * 2 * 2 * 2 and len(failed) == 2                  # one unit: its two learners
+    assert failed["error"].str.contains("worker process ended while running it (killed by SIGKILL)",
+                                        regex=False).all()
+    assert (failed["resampler"] == "plugins_for_tests:NamesItsProcess?pause=1.5&pids=" + str(pids)).all()

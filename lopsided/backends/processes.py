@@ -100,7 +100,10 @@ class _Worker:
         if not self.held:
             self.since = time.monotonic()
         self.held.append((unit, ref))
-        self.inbox.send((unit, ref))
+        try:
+            self.inbox.send((unit, ref))
+        except OSError:         # the worker just died: finished() sees it and hands the unit out again
+            pass
 
     def answers(self):
         """(unit, (kind, payload)) for every answer waiting in the pipe."""
@@ -140,6 +143,8 @@ class Processes:
         self._hand_out()
 
     def _hand_out(self):
+        for worker in [w for w in self._workers if not w.held and not w.process.is_alive()]:
+            self._replace(worker, kill=False)       # died while idle (killed from outside): nothing was lost
         for worker in sorted(self._workers, key=lambda w: len(w.held)):
             while self._queue and len(worker.held) < HELD:
                 worker.hand(*self._queue.popleft())
@@ -161,12 +166,13 @@ class Processes:
                 continue
             if not worker.process.is_alive():
                 results.append((worker.held[0][0], Lost(f"its worker process ended while running it "
-                                                     f"({_ending(worker.process.exitcode)})")))
+                                                        f"({_ending(worker.process.exitcode)})")))
                 self._replace(worker, kill=False)
             elif self._limit is not None and time.monotonic() - worker.since > self._limit:
-                results.append((worker.held[0][0], Lost(f"stopped: still running {GRACE_SECONDS:g} s after its time "
-                                                     f"limit of {self._limit - GRACE_SECONDS:g} s (protocol.timeout "
-                                                     "or --timeout); its worker process was killed")))
+                results.append((worker.held[0][0], Lost(f"stopped: still running {GRACE_SECONDS:g} s after its "
+                                                        f"time limit of {self._limit - GRACE_SECONDS:g} s "
+                                                        "(protocol.timeout or --timeout); its worker process "
+                                                        "was killed")))
                 self._replace(worker, kill=True)
         self._hand_out()
         return results
