@@ -14,6 +14,7 @@ from .dataset import Dataset
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError, unknown
 from .protocol import COHORT, TEST_DESIGNS, repeat_splits
+from .records import CellTally, RunSummary
 from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import MethodSpec
@@ -28,7 +29,7 @@ PACKAGES = ("numpy", "scipy", "scikit-learn", "pandas", "matplotlib", "jinja2", 
 class RunResult:
     out: Path
     store: Path
-    summary: dict
+    summary: RunSummary
     cells: object        # pandas DataFrame of this suite's stored cells
     skipped: list = field(default_factory=list)   # infeasible fold-points of the plan
 
@@ -199,17 +200,15 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                              backend=backend, scheduler=scheduler, timeout=timeout)
             counts = counts.plus(extra)        # the leakage run counts as work done, not planned
-        summary = _summary(suite, datasets, full, cells, counts, origins)
-        summary.update(started_at=started, finished_at=now(), seconds=round(time.perf_counter() - clock, 2),
-                       jobs=jobs, command=command)
-        if leaky is not None:
-            summary["split_leakage"] = leakage_rows(cells, db.cells(leaky.keys), suite)
-        db.finish_run(run_id, {**summary, "skipped": full.skipped})
+        summary = replace(_summary(suite, datasets, full, cells, counts, origins), started_at=started,
+                          finished_at=now(), seconds=round(time.perf_counter() - clock, 2), jobs=jobs, command=command,
+                          split_leakage=None if leaky is None else leakage_rows(cells, db.cells(leaky.keys), suite))
+        db.finish_run(run_id, {**summary.as_json(), "skipped": full.skipped})
     finally:
         db.close()
     report_clock = time.perf_counter()
-    write_report(out, suite.as_dict(), cells, full.skipped, summary, alpha=alpha, rope=rope)
-    summary["report_seconds"] = round(time.perf_counter() - report_clock, 2)
+    write_report(out, suite.as_dict(), cells, full.skipped, summary.as_json(), alpha=alpha, rope=rope)
+    summary = replace(summary, report_seconds=round(time.perf_counter() - report_clock, 2))
     return RunResult(out, store_path, summary, cells, full.skipped)
 
 
@@ -222,19 +221,17 @@ def _python_call(name, path, add, drop):
 def _summary(suite, datasets, full, cells, counts, origins):
     """The manifest: what ran, on what, with which versions; the caller adds times and the command."""
     ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
-    return {
-        "suite": suite.name, "suite_fingerprint": suite.fingerprint, "suite_file": suite.source,
-        "seed": suite.seed, "versions": versions(), "methods": origins,
-        "cells": {"planned": counts.planned, "ok": ok, "failed": len(cells) - ok,
-                  "missing": counts.planned - len(cells), "reused": counts.reused,
-                  "computed": counts.computed, "failed_now": counts.failed,
-                  "skipped_points": counts.skipped_points},
-        "skipped": skipped_summary(full.skipped),
-        "datasets": [{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
-                      "note": data.provenance.note, "source": data.provenance.source,
-                      "citation": data.provenance.citation, "licence": data.provenance.licence}
-                     for ref, data in datasets.items()],
-    }
+    return RunSummary(
+        suite=suite.name, suite_fingerprint=suite.fingerprint, suite_file=suite.source, seed=suite.seed,
+        versions=versions(), methods=origins,
+        cells=CellTally(planned=counts.planned, ok=ok, failed=len(cells) - ok, missing=counts.planned - len(cells),
+                        reused=counts.reused, computed=counts.computed, failed_now=counts.failed,
+                        skipped_points=counts.skipped_points),
+        skipped=skipped_summary(full.skipped),
+        datasets=[{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
+                   "note": data.provenance.note, "source": data.provenance.source,
+                   "citation": data.provenance.citation, "licence": data.provenance.licence}
+                  for ref, data in datasets.items()])
 
 
 def overlap(data):
@@ -296,13 +293,13 @@ def _rebuild(path, out, alpha, rope, drop, command, base=None):
         db.close()
     cells = cells[cells["resampler"].isin({s.canonical for s in suite.resamplers})].reset_index(drop=True)
     out = Path(out or Path("results") / suite.name)
-    skipped = summary.pop("skipped", [])
+    skipped = summary.get("skipped", [])           # the run stored its infeasible points one by one
+    recorded = RunSummary.from_json(summary)
     ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
-    counted = summary.get("cells", {})
-    summary["cells"] = {**counted, "planned": len(cells) + counted.get("missing", 0), "ok": ok,
-                        "failed": len(cells) - ok}
-    summary.update(skipped=skipped_summary(skipped), methods=origins, rebuilt={"at": now(), "command": command})
-    write_report(out, suite.as_dict(), cells, skipped, summary, alpha=alpha, rope=rope)
+    tally = replace(recorded.cells, planned=len(cells) + recorded.cells.missing, ok=ok, failed=len(cells) - ok)
+    rebuilt = replace(recorded, cells=tally, skipped=skipped_summary(skipped), methods=origins,
+                      rebuilt={"at": now(), "command": command})
+    write_report(out, suite.as_dict(), cells, skipped, rebuilt.as_json(), alpha=alpha, rope=rope)
     return out
 
 

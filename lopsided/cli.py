@@ -154,10 +154,10 @@ def _run(args):
                        retry_failed=args.retry_failed, progress=not args.quiet, alpha=args.alpha, rope=args.rope,
                        compare_split_leakage=args.compare_split_leakage, command=args.command_line,
                        backend=args.backend, scheduler=args.scheduler, timeout=args.timeout)
-    cells = result.summary["cells"]
-    print(f"cells: {cells['planned']} planned, {cells['reused']} reused from the store, {cells['computed']} computed "
-          f"({cells['failed_now']} failed), {cells['skipped_points']} infeasible fold-points skipped; "
-          f"{result.summary['seconds']:.1f} s")
+    cells = result.summary.cells
+    print(f"cells: {cells.planned} planned, {cells.reused} reused from the store, {cells.computed} computed "
+          f"({cells.failed_now} failed), {cells.skipped_points} infeasible fold-points skipped; "
+          f"{result.summary.seconds:.1f} s")
     _print_top(result.out)
     print(f"leaderboard: {result.out}/index.html and {result.out}/leaderboard.md; store: {result.store}")
 

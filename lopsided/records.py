@@ -3,8 +3,8 @@
 ``Point`` is a protocol point with its ratio and size kept as numbers (or the words 'natural',
 'balanced', 'all') and a separate display label; ``Coordinates`` says where a work unit sits and is what
 its cell keys hash; ``CellRow`` is one stored cell, and the store's columns are derived from its fields;
-``RunCounts`` is what a run did. Keys hash exactly the payload they always hashed, so stored cells stay
-valid.
+``RunCounts`` is what the runner did with a plan, ``RunSummary`` (with its ``CellTally``) a run's manifest.
+Keys hash exactly the payload they always hashed, so stored cells stay valid.
 """
 from dataclasses import asdict, dataclass, field, fields
 from typing import Any, get_type_hints
@@ -136,3 +136,56 @@ class RunCounts:
         """Work of a second plan (the leakage comparison) counted as work done, not as planned."""
         return RunCounts(self.planned, self.reused + other.reused, self.computed + other.computed,
                          self.failed + other.failed, self.skipped_points)
+
+
+@dataclass(frozen=True)
+class CellTally:
+    """The cells of a run's plan: ok, failed and not run; reused from the store or computed now."""
+
+    planned: int
+    ok: int
+    failed: int
+    missing: int
+    reused: int = 0
+    computed: int = 0
+    failed_now: int = 0
+    skipped_points: int = 0
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """A run's manifest: what ran, on what data, with which versions, how long, and how the cells went.
+
+    ``as_json`` is the content of manifest.json (unset optional fields left out) and what the store keeps
+    with the run; ``sections`` holds what another command adds to it (``lopsided try``: its verdict)."""
+
+    suite: str
+    suite_fingerprint: str
+    suite_file: str
+    seed: int
+    versions: dict
+    methods: list
+    cells: CellTally
+    skipped: list                 # infeasible points, grouped by dataset and point
+    datasets: list                # each dataset's description, meta-features, checksum and source
+    started_at: str | None = None
+    finished_at: str | None = None
+    seconds: float | None = None
+    jobs: int | None = None
+    command: str | None = None
+    split_leakage: list | None = None
+    rebuilt: dict | None = None
+    report_seconds: float | None = None
+    sections: dict = field(default_factory=dict)
+
+    def as_json(self) -> dict[str, Any]:
+        found = {f.name: getattr(self, f.name) for f in fields(self) if f.name != "sections"}
+        found["cells"] = asdict(self.cells)
+        return {name: value for name, value in found.items() if value is not None} | self.sections
+
+    @classmethod
+    def from_json(cls, data: dict[str, Any]) -> "RunSummary":
+        known = {f.name for f in fields(cls)} - {"sections"}
+        values = {name: value for name, value in data.items() if name in known}
+        values["cells"] = CellTally(**data["cells"])
+        return cls(**values, sections={name: value for name, value in data.items() if name not in known})

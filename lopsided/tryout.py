@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import json
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -155,11 +155,12 @@ def try_dataset(reference: str, suite_path: str | Path = "bench/quick.toml", boa
     section.update(_head_to_head(cells, suite, rope, alpha))
     section.update(_neighbours(reference, board, base.headline))
     section["curves"] = _curves(cells, targets, _rows_per_minority_group(load_dataset(reference)))
-    summary = {**result.summary, "tryout": section, "verdict": list(section.get("verdict", ()))}
+    verdict = list(section.get("verdict", ()))
+    summary = replace(result.summary, sections={"tryout": section, "verdict": verdict})
     figures = [(learning_curve_figure, (curve,), curve["figure"]) for curve in section["curves"] if curve.get("figure")]
-    write_report(result.out, suite.as_dict(), result.cells, result.skipped, summary, alpha=alpha, rope=rope,
+    write_report(result.out, suite.as_dict(), result.cells, result.skipped, summary.as_json(), alpha=alpha, rope=rope,
                  extra_figures=figures)
-    return TryResult(result.out, result, tuple(summary["verdict"]))
+    return TryResult(result.out, result, tuple(verdict))
 
 
 def _largest_point(cells):

@@ -48,8 +48,8 @@ def test_rerun_skips_every_stored_cell(write_suite, tmp_path):
     path = write_suite()
     first = run_suite(path, out=tmp_path / "o", progress=False)
     again = run_suite(path, out=tmp_path / "o", progress=False)
-    assert again.summary["cells"]["computed"] == 0
-    assert again.summary["cells"]["reused"] == first.summary["cells"]["planned"]
+    assert again.summary.cells.computed == 0
+    assert again.summary.cells.reused == first.summary.cells.planned
     assert _metric_json(first.cells) == _metric_json(again.cells)
 
 
@@ -57,9 +57,9 @@ def test_adding_a_resampler_computes_only_new_cells_and_changes_nothing_else(wri
     path = write_suite()
     before = run_suite(path, out=tmp_path / "o", progress=False)
     after = run_suite(path, out=tmp_path / "o", progress=False, add_resamplers=["plugins_for_tests:Halves"])
-    new = after.summary["cells"]["computed"]
-    assert new == before.summary["cells"]["planned"] // 3            # one more of three resamplers
-    assert after.summary["cells"]["reused"] == before.summary["cells"]["planned"]
+    new = after.summary.cells.computed
+    assert new == before.summary.cells.planned // 3            # one more of three resamplers
+    assert after.summary.cells.reused == before.summary.cells.planned
     old = _metric_json(before.cells)
     both = _metric_json(after.cells)
     assert {k: both[k] for k in old} == old
@@ -164,7 +164,7 @@ def test_report_from_the_suite_file_loads_no_dataset_and_refuses_a_changed_suite
     assert main(["report", str(suite), "--out", str(tmp_path / "o")]) == 0
     assert (tmp_path / "o" / "stats.json").read_text() == original
     manifest = json.loads((tmp_path / "o" / "manifest.json").read_text())
-    assert manifest["datasets"] == result.summary["datasets"] and "rebuilt" in manifest
+    assert manifest["datasets"] == result.summary.datasets and "rebuilt" in manifest
     changed = write_suite(text=suite.read_text().replace("seed = ", "seed = 9"))
     assert main(["report", str(changed), "--out", str(tmp_path / "o")]) == 2
     error = capsys.readouterr().err
@@ -174,7 +174,7 @@ def test_report_from_the_suite_file_loads_no_dataset_and_refuses_a_changed_suite
 
 def test_infeasible_points_are_skipped_and_reported(write_suite, tmp_path):
     result = run_suite(write_suite(ratios='["natural", 30]'), out=tmp_path / "o", progress=False)
-    assert result.summary["cells"]["skipped_points"] > 0
+    assert result.summary.cells.skipped_points > 0
     board = (tmp_path / "o" / "leaderboard.md").read_text()
     assert "Skipped points" in board and "min_minority" in board
     assert set(result.cells["ratio"]) <= {"natural", "30"}

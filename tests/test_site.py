@@ -76,7 +76,7 @@ def test_a_new_page_is_one_entry_and_one_template(run, tmp_path):
                                             '<p id="n">{{ count }} datasets</p>{% endblock %}'}),
         ENV.loader]))
     extra = Page("extra.html", "extra.html.j2", "Extra", lambda ctx: {"count": len(ctx["suite"]["datasets"])})
-    context = {"suite": {"name": "films", "datasets": ["a", "b"]}, "summary": result.summary, "caution": "Caution.",
+    context = {"suite": {"name": "films", "datasets": ["a", "b"]}, "summary": result.summary.as_json(), "caution": "Caution.",
                "version": "0"}
     write_site(env, tmp_path, context, pages=(extra,))
     html = (tmp_path / "extra.html").read_text(encoding="utf-8")
@@ -97,7 +97,7 @@ def test_the_folder_is_self_contained(run):
 
 def test_names_from_the_data_are_escaped_everywhere(run, tmp_path):
     out, result, suite = run
-    hostile = dict(result.summary)
+    hostile = result.summary.as_json()
     hostile["datasets"] = [{**d, "note": "<script>alert(1)</script>", "licence": "a & b"} for d in hostile["datasets"]]
     write_report(tmp_path, suite, result.cells, [], hostile)
     for page in RUN_PAGES:

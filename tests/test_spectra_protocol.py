@@ -56,7 +56,7 @@ def test_random_split_inflates_the_score_of_replicated_donors(write_suite, tmp_p
     text = text.replace("effect=2", "effect=0").replace("replicates=3", "replicates=6")
     path = write_suite(text=text, name="leak.toml")
     result = run_suite(path, out=tmp_path / "o", progress=False, compare_split_leakage=True)
-    rows = result.summary["split_leakage"]
+    rows = result.summary.split_leakage
     assert {r["learner"] for r in rows} == {"pls-da", "linear-svm"}
     assert all(r["grouped"] == pytest.approx(0.5, abs=0.15) for r in rows)    # no class effect: chance
     assert max(r["inflation"] for r in rows) > 0.05

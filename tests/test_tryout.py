@@ -42,7 +42,7 @@ def test_try_runs_the_top_combinations_and_writes_a_verdict_led_folder(write_sui
     assert 'href="try.html"' in (tmp_path / "mine" / "index.html").read_text(encoding="utf-8")
     again = try_dataset(SERUM, suite_path=suite, board=tmp_path / "board", top=2, sizes=[16, 32, "all"],
                         out=tmp_path / "mine", progress=False)
-    assert again.run.summary["cells"]["computed"] == 0                                 # stored cells reused
+    assert again.run.summary.cells.computed == 0                                 # stored cells reused
 
 
 def test_try_without_a_leaderboard_says_what_to_do(write_suite, tmp_path, capsys):

@@ -20,9 +20,9 @@ def main():
         result = try_dataset(DATASET, suite_path=ROOT / "bench" / "quick.toml", board=ROOT / "results" / "quick",
                              top=5, repeats=5, folds=5, out=Path(folder) / "try", jobs=2, progress=False)
         seconds = time.perf_counter() - started
-    cells = result.run.summary["cells"]
+    cells = result.run.summary.cells
     print(f"lopsided try, top 5 + no resampling, 300 spectra, 5 x 5-fold, 2 jobs: {seconds:.1f} s "
-          f"({cells['computed']} cells; target < 60 s)")
+          f"({cells.computed} cells; target < 60 s)")
 
 
 if __name__ == "__main__":
