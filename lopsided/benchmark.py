@@ -193,14 +193,16 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         full = plan(suite, datasets)
         leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
         run_id = db.begin_run(suite, full.keys)
+        described = []                        # the manifest's dataset part, made while workers compute
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
-                          backend=backend, scheduler=scheduler, timeout=timeout)
+                          backend=backend, scheduler=scheduler, timeout=timeout,
+                          beside=lambda: described.extend(describe(datasets)))
         cells = db.cells(full.keys)
         if leaky is not None:
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                              backend=backend, scheduler=scheduler, timeout=timeout)
             counts = counts.plus(extra)        # the leakage run counts as work done, not planned
-        summary = replace(_summary(suite, datasets, full, cells, counts, origins), started_at=started,
+        summary = replace(_summary(suite, described, full, cells, counts, origins), started_at=started,
                           finished_at=now(), seconds=round(time.perf_counter() - clock, 2), jobs=jobs, command=command,
                           split_leakage=None if leaky is None else leakage_rows(cells, db.cells(leaky.keys), suite))
         db.finish_run(run_id, {**summary.as_json(), "skipped": full.skipped})
@@ -218,8 +220,17 @@ def _python_call(name, path, add, drop):
     return f"lopsided.{name}({str(path)!r}{options})"
 
 
-def _summary(suite, datasets, full, cells, counts, origins):
-    """The manifest: what ran, on what, with which versions; the caller adds times and the command."""
+def describe(datasets):
+    """Each dataset as the manifest describes it: meta-features, class overlap, checksum, source."""
+    return [{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
+             "note": data.provenance.note, "source": data.provenance.source,
+             "citation": data.provenance.citation, "licence": data.provenance.licence}
+            for ref, data in datasets.items()]
+
+
+def _summary(suite, described, full, cells, counts, origins):
+    """The manifest: what ran, on what (``described``: see ``describe``), with which versions; the caller
+    adds times and the command."""
     ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
     return RunSummary(
         suite=suite.name, suite_fingerprint=suite.fingerprint, suite_file=suite.source, seed=suite.seed,
@@ -227,11 +238,7 @@ def _summary(suite, datasets, full, cells, counts, origins):
         cells=CellTally(planned=counts.planned, ok=ok, failed=len(cells) - ok, missing=counts.planned - len(cells),
                         reused=counts.reused, computed=counts.computed, failed_now=counts.failed,
                         skipped_points=counts.skipped_points),
-        skipped=skipped_summary(full.skipped),
-        datasets=[{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
-                   "note": data.provenance.note, "source": data.provenance.source,
-                   "citation": data.provenance.citation, "licence": data.provenance.licence}
-                  for ref, data in datasets.items()])
+        skipped=skipped_summary(full.skipped), datasets=described)
 
 
 def overlap(data):

@@ -24,13 +24,14 @@ from functools import lru_cache
 from itertools import islice
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 from tqdm import tqdm
 
 from . import __version__
 from . import learners as learner_registry
 from . import preprocessing as preprocessing_registry
 from . import resamplers as resampler_registry
-from .backends import BackendError, Lost, open_backend
+from .backends import BackendError, Lost, choose, open_backend
 from .backends.containment import UnitTimeout, captured_output, time_limit
 from .backends.worker import captured_warnings, limit_threads, one_job
 from .errors import LopsidedError
@@ -419,6 +420,33 @@ class _Signals:
             self.armed = False
 
 
+class _Beside:
+    """``work()`` started in a thread (or, with ``now``, run by ``join``, in this one); ``join`` waits for
+    it with BLAS / OpenMP at one thread (the cores belong to the workers) and re-raises what it raised."""
+
+    def __init__(self, work, now=True):
+        self.work, self.error, self.thread = work, None, None
+        if work is not None and not now:
+            self.thread = threading.Thread(target=self._run, name="lopsided-beside", daemon=True)
+            self.thread.start()
+
+    def _run(self):
+        try:
+            with threadpool_limits(1):
+                self.work()
+        except BaseException as exc:       # handed to the thread that joins
+            self.error = exc
+
+    def join(self):
+        if self.thread is None:
+            if self.work is not None:
+                self.work()
+            return
+        self.thread.join()
+        if self.error is not None:
+            raise self.error
+
+
 class _Batch:
     """Rows of whole finished units, written in one transaction when BATCH_CELLS wait or BATCH_SECONDS
     have passed since the last write (and once more however the run ends)."""
@@ -440,19 +468,26 @@ class _Batch:
 
 
 def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, progress=True, backend="auto",
-             scheduler=None, timeout=None):
-    """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return RunCounts. ``timeout`` (default: the suite's
-    ``protocol.timeout``) limits each unit's seconds. Raises Interrupted after SIGINT / SIGTERM."""
+             scheduler=None, timeout=None, beside=None):
+    """Compute what is missing from ``store`` on ``backend`` (see ``backends``); return RunCounts.
+
+    ``timeout`` (default: the suite's ``protocol.timeout``) limits each unit's seconds. ``beside`` is
+    work of the caller's that needs no cell (e.g. describing the datasets): while units run in other
+    processes it runs in a thread of this otherwise waiting one, else after the units. Raises
+    Interrupted after SIGINT / SIGTERM.
+    """
     stored = store.known_keys(full_plan.keys, include_failed=not retry_failed)
     todo = pending(full_plan, stored)
     planned, computed, failed = len(full_plan.keys), 0, 0
     if not todo:
+        _Beside(beside).join()
         return RunCounts(planned, len(stored), skipped_points=len(full_plan.skipped))
     needed = {unit.coords.dataset for unit in todo}
     timeout = timeout or suite.protocol.timeout
     with _Signals() as signals:
         workers = open_backend(backend, run_unit, {ref: datasets[ref] for ref in needed},
                                (tuple(suite.preprocessing), timeout), jobs, scheduler, timeout)
+        helper = _Beside(beside, now=choose(backend, jobs, scheduler) == "serial")
         total = sum(len(u.cells) for u in todo)
         if progress and sys.stderr.isatty():
             bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr,
@@ -481,6 +516,7 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
             batch.write()
             workers.close()
             bar.close()
+        helper.join()
     if signals.received:
         kept = len(store.known_keys(full_plan.keys))
         raise Interrupted(f"stopped by {signals.received}: {kept} of {planned} planned cells are kept in "

@@ -415,3 +415,23 @@ def test_a_signal_stops_a_run_cleanly_and_a_rerun_completes_it(uninterrupted, fo
     counts, cells = run_cells(path, store)
     assert (counts.reused, counts.computed) == (kept, len(reference) - kept)
     assert metric_text(cells) == metric_text(reference)
+
+
+def test_work_beside_the_units_runs_while_workers_compute_and_its_error_surfaces(folder):
+    """The driver describes the datasets in a thread while worker processes run units (serial: after them,
+    in the same thread); an error in that work is not lost."""
+    path = write_suite(folder, "beside", "random-under", repeats=1)
+    seen = []
+
+    def work():
+        seen.append(threading.current_thread().name)
+
+    run_cells(path, folder / "a.sqlite", jobs=2, beside=work)
+    run_cells(path, folder / "b.sqlite", backend="serial", beside=work)
+    assert seen == ["lopsided-beside", "MainThread"]
+
+    def broken():
+        raise ValueError("describing failed")
+
+    with pytest.raises(ValueError, match="describing failed"):
+        run_cells(path, folder / "c.sqlite", jobs=2, beside=broken)
