@@ -359,3 +359,20 @@ def test_check_xy_finds_every_non_finite_value_and_accepts_huge_finite_ones(bad)
         X[4, 2] = bad
         with pytest.raises(ResamplingError, match="NaN or infinite"):
             check_xy(X, y)
+
+
+def test_random_under_checks_the_rows_it_returns_for_non_finite_values():
+    """Random under-sampling reads only y to choose rows, so it scans only the rows it keeps: a NaN in a
+    minority row (always kept) is refused, the same draw as without NaN is returned otherwise."""
+    rng = np.random.default_rng(3)
+    X, y = rng.normal(size=(60, 4)), np.r_[np.zeros(50, int), np.ones(10, int)]
+    clean_X, clean_y = make_resampler(parse_method("random-under"), 1).fit_resample(X, y)
+    bad = X.copy()
+    bad[55, 2] = np.nan                                  # a minority row: kept whatever the draw
+    with pytest.raises(ResamplingError, match="NaN or infinite"):
+        make_resampler(parse_method("random-under"), 1).fit_resample(bad, y)
+    dropped = next(i for i in range(50) if not (clean_X == X[i]).all(axis=1).any())
+    bad = X.copy()
+    bad[dropped, 0] = np.inf                             # a majority row the draw leaves out
+    again_X, again_y = make_resampler(parse_method("random-under"), 1).fit_resample(bad, y)
+    assert np.array_equal(again_X, clean_X) and np.array_equal(again_y, clean_y)

@@ -10,18 +10,29 @@ class ResamplingError(LopsidedError):
 
 def check_xy(X, y):
     """Float 2-D X with finite values and integer y of the same length with at least two classes."""
+    X, y = check_shapes(X, y)
+    return finite(X), y
+
+
+def check_shapes(X, y):
+    """``check_xy`` without the scan for non-finite values (for a method that checks only the rows it returns)."""
     X = np.asarray(X, dtype=np.float64)
     y = np.asarray(y)
     if X.ndim != 2 or y.ndim != 1 or len(X) != len(y):
         raise ResamplingError(f"X must be 2-D and y 1-D of the same length, got {X.shape} and {y.shape}")
+    if len(np.unique(y)) < 2:
+        raise ResamplingError("the training set holds one class only; there is nothing to rebalance")
+    return X, y
+
+
+def finite(X):
+    """X, once every value is known to be finite (else a ResamplingError)."""
     # a finite sum proves every value finite (NaN and infinity propagate); only an overflowing sum needs the scan
     with np.errstate(over="ignore", invalid="ignore"):
         total = X.sum()
     if not np.isfinite(total) and not np.isfinite(X).all():
         raise ResamplingError("X holds NaN or infinite values; impute them in the preprocessing list first")
-    if len(np.unique(y)) < 2:
-        raise ResamplingError("the training set holds one class only; there is nothing to rebalance")
-    return X, y
+    return X
 
 
 def as_rng(random_state):

@@ -5,7 +5,7 @@ the other classes untouched and return originals first, then the added rows.
 """
 import numpy as np
 
-from .base import as_rng, check_xy, over_targets, under_targets
+from .base import as_rng, check_shapes, check_xy, finite, over_targets, under_targets
 
 
 class NoResampling:
@@ -31,13 +31,13 @@ class RandomUnder:
         self.random_state = random_state
 
     def fit_resample(self, X, y):
-        X, y = check_xy(X, y)
+        X, y = check_shapes(X, y)              # only the rows kept need to be finite: checked once chosen
         rng = as_rng(self.random_state)
         caps = under_targets(y, self.balance)
         keep = [np.flatnonzero(y == label) for label in np.unique(y) if label not in caps]
         keep += [rng.choice(np.flatnonzero(y == label), cap, replace=False) for label, cap in caps.items()]
         keep = np.sort(np.concatenate(keep))
-        return X[keep], y[keep]
+        return finite(X[keep]), y[keep]
 
 
 class _CopyOver:
