@@ -2,13 +2,12 @@
 
 ``PREPROCESSORS`` maps a name to (factory, description); factories return scikit-learn
 transformers. A suite's list becomes one pipeline, applied before resampling. Spectral steps come
-from chemotools (Cabaneros Lopez et al., scikit-learn-style chemometrics transformers); a factory
-that takes ``axis`` receives the dataset's feature axis (wavenumbers, cm-1).
+from chemotools (Cabaneros Lopez et al., scikit-learn-style chemometrics transformers), imported by
+the factory that first needs it (importing chemotools also imports scikit-learn's testing helpers and
+pytest: a quarter of a second at every start); a factory that takes ``axis`` receives the dataset's
+feature axis (wavenumbers, cm-1).
 """
 import numpy as np
-from chemotools.baseline import AsLs
-from chemotools.derivative import SavitzkyGolay
-from chemotools.scatter import MultiplicativeScatterCorrection, StandardNormalVariate
 from sklearn.decomposition import PCA
 from sklearn.impute import SimpleImputer
 from sklearn.pipeline import make_pipeline
@@ -44,11 +43,13 @@ def wavenumber_range(low, high, axis=None):
 
 def snv():
     """Standard normal variate: each spectrum centred and scaled by its own sd (Barnes, Dhanoa & Lister 1989)."""
+    from chemotools.scatter import StandardNormalVariate
     return StandardNormalVariate()
 
 
 def msc():
     """Multiplicative scatter correction against the training mean spectrum (Geladi, MacDougall & Martens 1985)."""
+    from chemotools.scatter import MultiplicativeScatterCorrection
     return MultiplicativeScatterCorrection(method="mean")
 
 
@@ -59,11 +60,13 @@ def unit_norm():
 
 def savgol(window=15, order=2, derivative=0):
     """Savitzky-Golay smoothing (derivative=0) or derivatives (1, 2) (Savitzky & Golay 1964)."""
+    from chemotools.derivative import SavitzkyGolay
     return SavitzkyGolay(window_length=window, polyorder=order, deriv=derivative, mode="nearest")
 
 
 def als_baseline(lam=1e5, asymmetry=0.01):
     """Asymmetric least-squares baseline removal (Eilers & Boelens 2005)."""
+    from chemotools.baseline import AsLs
     return AsLs(lam=lam, penalty=asymmetry)
 
 
