@@ -103,10 +103,8 @@ class CellRow:
     finished_at: str | None = field(default=None)
 
     def values(self) -> tuple:
+        """The row in the store's column order."""
         return tuple(getattr(self, name) for name in COLUMN_NAMES)
-
-    def as_dict(self) -> dict[str, Any]:
-        return asdict(self)
 
 
 _SQL_TYPES = {str: "TEXT", int: "INTEGER", float: "REAL"}

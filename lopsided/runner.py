@@ -69,6 +69,10 @@ class WorkUnit:
     def __str__(self):
         return f"{self.coords}, resampler {self.resampler.title}"
 
+    def planned_versions(self):
+        """The code versions the plan and the cell keys assume, shaped as ``worker_versions`` returns them."""
+        return {**self.code, "learner": {c.learner.canonical: c.code for c in self.cells}}
+
 
 @dataclass
 class Plan:
@@ -212,8 +216,7 @@ def failed_rows(unit, code_versions, error, base, cells=None, warning=None):
 
 def lost_rows(unit, reason):
     """Rows of a unit its backend lost (its worker died or was stopped), with the code versions planned."""
-    planned = {**unit.code, "learner": {c.learner.canonical: c.code for c in unit.cells}}
-    return failed_rows(unit, _code_versions(unit, planned), reason, _basics(unit, None))
+    return failed_rows(unit, _code_versions(unit, unit.planned_versions()), reason, _basics(unit, None))
 
 
 def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
@@ -320,8 +323,7 @@ def execute(units, backend, stoppable=nullcontext):
 
 def check_versions(unit, ran):
     """Refuse a result whose worker ran other code than the plan (and so the cell keys) assumed."""
-    planned = {**unit.code, "learner": {c.learner.canonical: c.code for c in unit.cells}}
-    for (what, want), (_, got) in zip(_labelled(unit, planned), _labelled(unit, ran)):
+    for (what, want), (_, got) in zip(_labelled(unit, unit.planned_versions()), _labelled(unit, ran)):
         if want != got:
             raise BackendError(f"{unit}: {what}: the worker ran {got!r}, but the plan and its cell keys use "
                                f"{want!r}; install the same versions of lopsided and the suite's plugins on the "

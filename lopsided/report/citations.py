@@ -2,7 +2,7 @@
 resamplers and learners, and the statistics behind the rankings.
 
 ``ENTRIES`` holds one BibTeX entry per key; ``citation_block(suite, summary)`` picks the entries a run
-used, from its suite dict (``Suite.as_dict()``) and its manifest (``benchmark._summary``). Each key
+used, from its suite dict (``Suite.as_dict()``) and its manifest (``records.RunSummary.as_json()``). Each key
 appears once in the whole block; a key shared by a data source and a method (Fisher 1936: the iris
 data and linear discriminant analysis) is listed with the data sources. Entry types and their
 required fields follow Patashnik (1988), BibTeXing, section 3.1.
