@@ -9,13 +9,12 @@ import numpy as np
 
 from . import __version__
 from .analysis.complexity import meta_features
-from .backends import choose
+from .backends import choose, start_early
 from .dataset import Dataset
 from .datasets import load_dataset
 from .errors import LopsidedError, StoreError, SuiteError, unknown
 from .protocol import COHORT, TEST_DESIGNS, repeat_splits
 from .records import CellTally, RunSummary
-from .report import leakage_rows, skipped_summary, write_report
 from .runner import plan, run_plan
 from .specs import MethodSpec
 from .store import Store, now
@@ -177,6 +176,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         raise SuiteError("--jobs", "jobs", f"{jobs!r} is not a whole number >= 1")
     timeout = unit_seconds(timeout, "--timeout", "timeout")
     choose(backend, jobs, scheduler)          # a backend option that cannot work is refused before data loads
+    start_early(backend, scheduler)
     command = command or _python_call("run_suite", path, add_resamplers, drop_resamplers)
     where = ("--out", str(out)) if out else (base.source, "out")
     out = Path(out or base.path(base.out) or Path("results") / base.name)
@@ -196,8 +196,9 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         described = []                        # the manifest's dataset part, made while workers compute
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                           backend=backend, scheduler=scheduler, timeout=timeout,
-                          beside=lambda: described.extend(describe(datasets)))
+                          beside=lambda: _describe_and_prepare(datasets, described))
         cells = db.cells(full.keys)
+        from .report import leakage_rows, write_report  # imported beside the workers (_describe_and_prepare)
         if leaky is not None:
             extra = run_plan(leaky, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                              backend=backend, scheduler=scheduler, timeout=timeout)
@@ -220,6 +221,15 @@ def _python_call(name, path, add, drop):
     return f"lopsided.{name}({str(path)!r}{options})"
 
 
+def _describe_and_prepare(datasets, described):
+    """The driver's work while workers compute: the manifest's dataset part into ``described``, then the
+    report's libraries (matplotlib, jinja2) imported and its templates compiled, which would otherwise
+    follow the last unit (about 0.5 s, measured with bench/perf/backends.py)."""
+    described.extend(describe(datasets))
+    from .report import prepare
+    prepare()
+
+
 def describe(datasets):
     """Each dataset as the manifest describes it: meta-features, class overlap, checksum, source."""
     return [{"reference": ref, **data.meta(), **overlap(data), "checksum": data.checksum,
@@ -231,6 +241,7 @@ def describe(datasets):
 def _summary(suite, described, full, cells, counts, origins):
     """The manifest: what ran, on what (``described``: see ``describe``), with which versions; the caller
     adds times and the command."""
+    from .report import skipped_summary
     ok = int((cells["status"] == "ok").sum()) if len(cells) else 0
     return RunSummary(
         suite=suite.name, suite_fingerprint=suite.fingerprint, suite_file=suite.source, seed=suite.seed,
@@ -298,6 +309,7 @@ def _rebuild(path, out, alpha, rope, drop, command, base=None):
         cells = db.cells(keys)
     finally:
         db.close()
+    from .report import skipped_summary, write_report
     cells = cells[cells["resampler"].isin({s.canonical for s in suite.resamplers})].reset_index(drop=True)
     out = Path(out or Path("results") / suite.name)
     skipped = summary.get("skipped", [])           # the run stored its infeasible points one by one

@@ -1,13 +1,11 @@
 """The `lopsided` command. Every LopsidedError is caught here once: message on stderr, exit 2."""
 import argparse
+import gc
 import json
 import shlex
 import sys
 import traceback
 
-import pandas as pd
-
-from . import learners, preprocessing, resamplers
 from .errors import LopsidedError
 
 LIST_KINDS = ("datasets", "resamplers", "learners", "metrics", "preprocessing")
@@ -148,6 +146,8 @@ def main(argv=None):
 
 
 def _run(args):
+    from .backends import start_early
+    start_early(args.backend, args.scheduler)      # before the imports below: a Dask fork server imports beside them
     from .benchmark import run_suite
     result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
                        add_resamplers=args.add_resampler, drop_resamplers=args.drop_resampler,
@@ -163,6 +163,7 @@ def _run(args):
 
 
 def _print_top(out, rows=8):
+    import pandas as pd
     comparisons = json.loads((out / "stats.json").read_text())["comparisons"]
     if not comparisons:
         print("no comparison could be made (see leaderboard.md)")
@@ -204,7 +205,7 @@ def _compare(args):
 
 
 def _list(args):
-    from . import datasets, metrics
+    from . import datasets, learners, metrics, preprocessing, resamplers
     from .registry import BUILT_IN, Listing
     rows = {
         "datasets": datasets.DATASETS.describe,
@@ -226,6 +227,8 @@ LIST_COLUMNS = ["reference", "n", "d", "nominal", "missing", "duplicates", "mino
 
 
 def _datasets(args):
+    import pandas as pd
+
     from . import datasets
     if args.action == "show":
         with datasets.cache.no_downloads():
@@ -305,5 +308,14 @@ def _whole(text, option):
 
 COMMANDS = {"run": _run, "report": _report, "rank": _rank, "compare": _compare, "list": _list, "datasets": _datasets, "try": _try}
 
+def command():
+    """The ``lopsided`` console command: ``main()``, then exit with its code. Everything the libraries
+    created is frozen first, so the interpreter's exit does not walk it with the garbage collector
+    (gc.freeze: 0.3-0.5 s less for every command on our 2-core machine)."""
+    code = main()
+    gc.freeze()
+    sys.exit(code)
+
+
 if __name__ == "__main__":
-    sys.exit(main())
+    command()

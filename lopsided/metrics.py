@@ -12,6 +12,7 @@ both curve metrics of a score column from one sort of that column, with a thresh
 distinct score value (ties fall together), as scikit-learn's metric functions define them.
 """
 import numpy as np
+from sklearn.ensemble import RandomForestClassifier
 
 from .errors import MethodError
 
@@ -29,18 +30,40 @@ METRICS = {
 NAN = float("nan")
 
 
+# Classifiers whose own predict() is by definition the class of largest predict_proba(), first class on
+# ties (scikit-learn's forests: ``self.classes_.take(np.argmax(proba, axis=1))``), so that one call gives both.
+PREDICTS_BY_PROBABILITY = {RandomForestClassifier.predict}
+
+
+def predictions_and_scores(model, X, n_classes):
+    """(class indices the model predicts, ``class_scores``) for the rows of X. A forest's trees are
+    walked once (its predictions are the argmax of its probabilities); other models predict and score
+    with a call each, so their predictions stay exactly their own."""
+    if type(model).predict in PREDICTS_BY_PROBABILITY and getattr(model, "n_outputs_", 1) == 1:
+        probabilities = model.predict_proba(X)
+        predicted = model.classes_.take(np.argmax(probabilities, axis=1))
+        return np.asarray(predicted).astype(np.int64), _spread(model, probabilities, len(X), n_classes)
+    return np.asarray(model.predict(X)).astype(np.int64), class_scores(model, X, n_classes)
+
+
 def class_scores(model, X, n_classes):
     """(n, n_classes) continuous scores: probabilities if the model has them, else decision values."""
-    out = np.full((len(X), n_classes), -np.inf)
-    labels = np.asarray(model.classes_, dtype=int)
     if hasattr(model, "predict_proba"):
-        out[:, labels] = model.predict_proba(X)
-        return out
+        return _spread(model, model.predict_proba(X), len(X), n_classes)
+    labels = np.asarray(model.classes_, dtype=int)
+    out = np.full((len(X), n_classes), -np.inf)
     decision = np.asarray(model.decision_function(X), dtype=float)
     if decision.ndim == 1:
         out[:, labels[1]], out[:, labels[0]] = decision, -decision
     else:
         out[:, labels] = decision
+    return out
+
+
+def _spread(model, probabilities, n_rows, n_classes):
+    """The model's probability columns at its classes' places among all n_classes (-inf elsewhere)."""
+    out = np.full((n_rows, n_classes), -np.inf)
+    out[:, np.asarray(model.classes_, dtype=int)] = probabilities
     return out
 
 

@@ -24,6 +24,7 @@ from functools import lru_cache
 from itertools import islice
 
 import numpy as np
+import sklearn
 from threadpoolctl import threadpool_limits
 from tqdm import tqdm
 
@@ -35,7 +36,7 @@ from .backends import BackendError, Lost, choose, open_backend
 from .backends.containment import UnitTimeout, captured_output, time_limit
 from .backends.worker import captured_warnings, limit_threads, one_job
 from .errors import LopsidedError
-from .metrics import class_scores, score_cell
+from .metrics import predictions_and_scores, score_cell
 from .plugins import code_version
 from .protocol import Infeasible, class_orders, derive_seed, point_counts, point_rows, repeat_splits
 from .records import CellRow, Coordinates, Point, RunCounts
@@ -253,17 +254,27 @@ def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
              else None]
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
     weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
+    checked = _all_finite(X_test)          # X_res is: the resampler output rules saw to that
     rows = []
     for position, cell in enumerate(unit.cells):
         try:
-            rows.append(_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test, y_test,
-                                 data, notes))
+            with sklearn.config_context(assume_finite=checked):
+                rows.append(_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test,
+                                     y_test, data, notes))
         except UnitTimeout:
             rows += failed_rows(unit, ran, f"learner {cell.learner.title}: {_over_time(timeout)}", base, [cell])
             rows += failed_rows(unit, ran, f"not run: the unit's time limit of {timeout:g} s ran out during learner "
                                 f"{cell.learner.title}", base, unit.cells[position + 1:])
             break
     return rows
+
+
+def _all_finite(X):
+    """Whether every value of X is finite: then the learners need not check it again in each fit and
+    predict (scikit-learn's ``assume_finite``; a forest checks once per tree). One sum decides unless it
+    overflows (NaN and infinity propagate through a sum)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(np.sum(X))) or bool(np.isfinite(X).all())
 
 
 def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):
@@ -275,8 +286,7 @@ def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):
             started = time.perf_counter()
             model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
             fitted = time.perf_counter()
-            predicted = np.asarray(model.predict(X_test)).astype(np.int64)
-            scores = class_scores(model, X_test, len(data.classes))
+            predicted, scores = predictions_and_scores(model, X_test, len(data.classes))
             done = time.perf_counter()
             metrics = score_cell(y_test, predicted, scores, data.minority, data.classes)
         except (Exception, SystemExit) as exc:
@@ -423,12 +433,15 @@ class _Signals:
 
 
 class _Beside:
-    """``work()`` started in a thread (or, with ``now``, run by ``join``, in this one); ``join`` waits for
-    it with BLAS / OpenMP at one thread (the cores belong to the workers) and re-raises what it raised."""
+    """``work()`` in a thread of its own once started, with BLAS / OpenMP at one thread (the cores belong
+    to the workers); unthreaded (a serial run), ``join`` does it in this one. ``join`` waits for it and
+    re-raises what it raised; ``wait`` only waits."""
 
-    def __init__(self, work, now=True):
-        self.work, self.error, self.thread = work, None, None
-        if work is not None and not now:
+    def __init__(self, work, threaded=False):
+        self.work, self.threaded, self.error, self.thread = work, threaded, None, None
+
+    def start(self):
+        if self.threaded and self.work is not None and self.thread is None:
             self.thread = threading.Thread(target=self._run, name="lopsided-beside", daemon=True)
             self.thread.start()
 
@@ -439,12 +452,18 @@ class _Beside:
         except BaseException as exc:       # handed to the thread that joins
             self.error = exc
 
+    def wait(self):
+        """Wait for a started thread however the run ends: the interpreter's exit, while a thread is still
+        inside compiled code (scipy's C++), aborted the process with exit code 134 after a failed run."""
+        if self.thread is not None:
+            self.thread.join()
+
     def join(self):
-        if self.thread is None:
+        if not self.threaded:
             if self.work is not None:
                 self.work()
             return
-        self.thread.join()
+        self.wait()
         if self.error is not None:
             raise self.error
 
@@ -486,10 +505,18 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
         return RunCounts(planned, len(stored), skipped_points=len(full_plan.skipped))
     needed = {unit.coords.dataset for unit in todo}
     timeout = timeout or suite.protocol.timeout
+    name = choose(backend, jobs, scheduler)
+    helper = _Beside(beside, threaded=name != "serial")
+    if name == "dask":        # its workers start from a fork server, not from this process: start beside them
+        helper.start()
     with _Signals() as signals:
-        workers = open_backend(backend, run_unit, {ref: datasets[ref] for ref in needed},
-                               (tuple(suite.preprocessing), timeout), jobs, scheduler, timeout)
-        helper = _Beside(beside, now=choose(backend, jobs, scheduler) == "serial")
+        try:
+            workers = open_backend(name, run_unit, {ref: datasets[ref] for ref in needed},
+                                   (tuple(suite.preprocessing), timeout), jobs, scheduler, timeout)
+        except BaseException:
+            helper.wait()
+            raise
+        helper.start()        # after the processes backend forked this process, which then ran no other thread
         total = sum(len(u.cells) for u in todo)
         if progress and sys.stderr.isatty():
             bar = tqdm(total=total, unit="cell", desc=suite.name, mininterval=0.5, file=sys.stderr,
@@ -518,6 +545,7 @@ def run_plan(full_plan, datasets, suite, store, jobs=1, retry_failed=False, prog
             batch.write()
             workers.close()
             bar.close()
+            helper.wait()
         helper.join()
     if signals.received:
         kept = len(store.known_keys(full_plan.keys))

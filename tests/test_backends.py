@@ -435,3 +435,39 @@ def test_work_beside_the_units_runs_while_workers_compute_and_its_error_surfaces
 
     with pytest.raises(ValueError, match="describing failed"):
         run_cells(path, folder / "c.sqlite", jobs=2, beside=broken)
+
+
+
+class FailingWorkers:
+    """A backend whose workers fail outside any unit's stages (as a bug of ours would)."""
+    slots = 2
+
+    def submit(self, unit, ref):
+        pass
+
+    def finished(self, timeout):
+        time.sleep(0.1)
+        raise BackendError("a worker failed")
+
+    def cancel(self):
+        return 0
+
+    def close(self):
+        pass
+
+
+def test_a_failed_run_waits_for_the_work_beside_it(folder, monkeypatch):
+    """A run whose workers fail still waits for the thread beside them before the error goes up: an
+    interpreter exiting while that thread was inside scipy's compiled code aborted the process (exit code
+    134, in 2 of 4 tries, instead of one error line and exit code 2)."""
+    path = write_suite(folder, "beside-failed", "random-under", repeats=1)
+    monkeypatch.setattr(runner, "open_backend", lambda *args: FailingWorkers())
+    finished = []
+
+    def work():
+        time.sleep(1.0)
+        finished.append(threading.current_thread().name)
+
+    with pytest.raises(BackendError, match="a worker failed"):
+        run_cells(path, folder / "failed.sqlite", jobs=2, beside=work)
+    assert finished == ["lopsided-beside"]

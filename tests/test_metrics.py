@@ -6,9 +6,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from sklearn import metrics as skm
+from sklearn.base import BaseEstimator, ClassifierMixin
+from sklearn.ensemble import RandomForestClassifier
 
 from lopsided.errors import MethodError
-from lopsided.metrics import score_cell
+from lopsided.metrics import class_scores, predictions_and_scores, score_cell
 
 
 @pytest.fixture
@@ -208,3 +210,41 @@ def test_prediction_outside_the_classes_is_refused():
     y = np.array([0, 1, 0, 1])
     with pytest.raises(MethodError, match=r"outside the class indices 0\.\.1; got \[2\]"):
         score_cell(y, np.array([0, 2, 0, 1]), np.zeros((4, 2)), minority=1, class_names=("a", "b"))
+
+
+class Contrary(ClassifierMixin, BaseEstimator):
+    """Predicts class 0 while its probabilities favour class 1: predictions must stay its own."""
+
+    def fit(self, X, y):
+        self.classes_ = np.unique(y)
+        return self
+
+    def predict(self, X):
+        return np.zeros(len(X), dtype=int)
+
+    def predict_proba(self, X):
+        return np.tile([0.2, 0.8], (len(X), 1))
+
+
+class CountedForest(RandomForestClassifier):
+    def predict_proba(self, X):
+        self.walks = getattr(self, "walks", 0) + 1
+        return super().predict_proba(X)
+
+
+def test_a_forest_is_walked_once_and_predicts_as_its_own_predict_does():
+    """A forest's predict() is the argmax of its predict_proba() (scikit-learn's ForestClassifier), so one
+    pass gives both; 2 trees on noisy labels leave many 0.5 / 0.5 ties, which must go to the first class as
+    its own predict sends them. Missing classes get -inf scores, as class_scores gives them."""
+    rng = np.random.default_rng(0)
+    X, y = rng.normal(size=(300, 3)), rng.integers(0, 2, 300) * 2          # classes 0 and 2 of 3
+    forest = CountedForest(n_estimators=2, random_state=1).fit(X, y)
+    predicted, scores = predictions_and_scores(forest, X, 3)
+    assert forest.walks == 1
+    proba = forest.predict_proba(X)
+    assert (proba[:, 0] == proba[:, 1]).sum() > 20                        # the ties are there
+    assert np.array_equal(predicted, forest.predict(X))
+    assert np.array_equal(scores, class_scores(forest, X, 3)) and np.isinf(scores[:, 1]).all()
+    contrary = Contrary().fit(X, y // 2)
+    predicted, scores = predictions_and_scores(contrary, X, 2)
+    assert (predicted == 0).all() and (scores[:, 1] == 0.8).all()

@@ -66,6 +66,14 @@ def choose(backend: str, jobs: int, scheduler: str | None) -> str:
     return backend
 
 
+def start_early(backend: str, scheduler: str | None) -> None:
+    """Start what the chosen backend will need, as early as the caller can: a local Dask cluster's fork
+    server (see cluster.start_fork_server). Options that cannot work are left to ``choose``."""
+    if backend == "dask" and scheduler is None:
+        from .cluster import start_fork_server
+        start_fork_server()
+
+
 def open_backend(backend: str, task: Callable[..., Any], datasets: dict[str, Any], shared: tuple = (), jobs: int = 1,
                  scheduler: str | None = None, timeout: float | None = None) -> Backend:
     """A started backend that runs ``task(unit, datasets[ref], *shared)``; ``task`` must be importable

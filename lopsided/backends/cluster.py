@@ -13,9 +13,11 @@ coordinates of its units (a few at a time once their duration is known, so that 
 task stays small). A worker lost mid-run only causes its tasks' units to run again elsewhere (Dask
 reschedules them; a task that takes down more than ``allowed-failures`` workers fails the run).
 """
+import importlib.util
 import logging
 import math
 import multiprocessing
+import multiprocessing.forkserver
 import time
 from queue import Empty, SimpleQueue
 
@@ -33,19 +35,33 @@ MAX_GROUP = 16
 # Workers we start do not sample their own stacks every 10 ms (Dask's built-in profiler, for its
 # dashboard, which we do not start): on a busy core it competes with the unit for the GIL.
 QUIET_WORKERS = {"distributed.worker.profile.enabled": False}
+FORK_SERVER_MODULES = ("distributed", "lopsided.runner", "lopsided.report")
+
+
+def start_fork_server(*modules):
+    """Start the fork server a local cluster's workers fork from, with Dask, the runner, the report and
+    ``modules`` imported in it once, instead of in each worker. Called early (before ``lopsided run``
+    imports scikit-learn), it imports them on another core while this process imports its own, which
+    took most of a local cluster's start. The report's local pool forks from it too while Dask's threads
+    run in this process. Does nothing without the 'forkserver' start method or without Dask."""
+    if "forkserver" not in multiprocessing.get_all_start_methods() or importlib.util.find_spec("distributed") is None:
+        return
+    context = multiprocessing.get_context("forkserver")
+    context.set_forkserver_preload(list(dict.fromkeys([*FORK_SERVER_MODULES, *modules])))
+    multiprocessing.forkserver.ensure_running()
 
 
 def _local_cluster(dask, distributed, jobs, task):
     """A LocalCluster of ``jobs`` single-threaded worker processes on 127.0.0.1, no dashboard. Where the
-    platform has the 'forkserver' start method, workers fork from one server process that imported Dask
-    and the task's module (scikit-learn, ...) once, instead of each importing everything anew."""
+    platform has the 'forkserver' start method, workers fork from one server (``start_fork_server``)."""
     settings = dict(QUIET_WORKERS)
     forkserver = "forkserver" in multiprocessing.get_all_start_methods()
     if forkserver:
         settings["distributed.worker.multiprocessing-method"] = "forkserver"
     with dask.config.set(settings):
         if forkserver:     # after Dask set its own preload list (once per process), so that ours stands
-            distributed.utils.get_mp_context().set_forkserver_preload(["distributed", task.__module__])
+            distributed.utils.get_mp_context()
+            start_fork_server(task.__module__)
         return distributed.LocalCluster(
             n_workers=jobs, threads_per_worker=1, processes=True, host="127.0.0.1", silence_logs=logging.CRITICAL,
             env=THREAD_VARIABLES, scheduler_kwargs={"dashboard": False, "dashboard_address": "127.0.0.1:0"})

@@ -38,6 +38,13 @@ ENV = jinja2.Environment(loader=jinja2.PackageLoader("lopsided.report", "templat
                          lstrip_blocks=True)
 
 
+def prepare():
+    """Compile every template now, e.g. while a run's workers compute (``write_report`` then finds them
+    compiled: about 0.3 s of jinja2 compilation off the time after the last unit)."""
+    for name in ENV.list_templates():
+        ENV.get_template(name)
+
+
 def markdown_text(value):
     """Text safe inside a Markdown table cell: pipes escaped, no raw HTML, one line."""
     text = " ".join(str(value).split())
