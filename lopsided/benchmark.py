@@ -193,7 +193,7 @@ def run_suite(path, jobs=1, out=None, store=None, add_resamplers=(), drop_resamp
         full = plan(suite, datasets)
         leaky = plan(suite, datasets, split="random") if compare_split_leakage else None
         run_id = db.begin_run(suite, full.keys)
-        described = []                        # the manifest's dataset part, made while workers compute
+        described: list[dict] = []            # the manifest's dataset part, made while workers compute
         counts = run_plan(full, datasets, suite, db, jobs=jobs, retry_failed=retry_failed, progress=progress,
                           backend=backend, scheduler=scheduler, timeout=timeout,
                           beside=lambda: _describe_and_prepare(datasets, described))

@@ -308,6 +308,7 @@ def _whole(text, option):
 
 COMMANDS = {"run": _run, "report": _report, "rank": _rank, "compare": _compare, "list": _list, "datasets": _datasets, "try": _try}
 
+
 def command():
     """The ``lopsided`` console command: ``main()``, then exit with its code. Everything the libraries
     created is frozen first, so the interpreter's exit does not walk it with the garbage collector

@@ -6,7 +6,10 @@ A  runner overhead: plan + run_plan on the serial backend (fresh store, no repor
    thread, as every worker has. Target <= 1.05.
 B  `lopsided run --jobs 2` (processes) over `lopsided run --backend serial`, end to end: each a fresh
    `lopsided run` process (start, planning, units, store, report) on a suite of >= 200 work units.
-   Target >= 1.8.
+   Target >= 1.8. Beside it, what the machine allows: the fit, predict and resample seconds the workers
+   timed for the same cells, summed, in the two-worker run over the serial one. Above 1, each core does
+   the same scikit-learn work slower while the other is busy too (shared caches and memory bandwidth,
+   a host's other guests), and 2 / that ratio bounds the speed-up of the units themselves.
 C  `lopsided run --backend dask --jobs 2` (a LocalCluster of 2 single-threaded workers, started and
    stopped by the run) over `lopsided run --jobs 2`, end to end. Target <= 1.15.
    A, B and C are timed ROUNDS times, interleaved, and their medians compared. On a shared machine the
@@ -18,7 +21,10 @@ D  the store: 1,000,000 synthetic cell rows written as the runner writes them (5
    fresh process: seconds and peak memory (targets < 60 s and < 2 GB).
 That each unit is resampled exactly once on every backend is a test (tests/test_backends.py), not a timing.
 
-    python bench/perf/backends.py [--rounds 3] [--part all|runs|store]
+B and C can also be timed on a real suite file, e.g. the README's job (whose `--jobs 2` runs also time
+`bench/quick.toml` against its 120 s target):
+
+    python bench/perf/backends.py [--rounds 3] [--part all|runs|store] [--suite bench/quick.toml]
 """
 import argparse
 import json
@@ -32,6 +38,7 @@ import threading
 import time
 from pathlib import Path
 
+import pandas as pd
 from runner_overhead import plain_loop, timed
 from threadpoolctl import threadpool_limits
 
@@ -93,9 +100,9 @@ def measured(action):
 
 
 def command_line(path, out, *options):
-    """A fresh `lopsided run` process, as a user starts it."""
-    subprocess.run([sys.executable, "-m", "lopsided.cli", "run", str(path), "--out", str(out), "--quiet", *options],
-                   check=True, stdout=subprocess.DEVNULL)
+    """A fresh `lopsided run` process, as a user starts it, into a fresh store."""
+    subprocess.run([sys.executable, "-m", "lopsided.cli", "run", str(path), "--out", str(out), "--store",
+                    str(out / "store.sqlite"), "--quiet", *options], check=True, stdout=subprocess.DEVNULL)
 
 
 def runner_alone(path, work, tag):
@@ -109,52 +116,69 @@ def runner_alone(path, work, tag):
         db.close()
 
 
+def compute_seconds(out):
+    """Seconds the cells of a finished run spent in their learners and resamplers (fit + predict per
+    cell, resample once per unit), as the workers timed them."""
+    cells = pd.read_csv(out / "cells.csv")
+    return cells.fit_seconds.sum() + cells.predict_seconds.sum() + cells.groupby("unit_key").resample_seconds.first().sum()
+
+
 def one_thread_loop(suite, datasets, units):
     with threadpool_limits(1):
         plain_loop(suite, datasets, units)
 
 
-def timed_runs(rounds):
+def timed_runs(rounds, suite_file=None):
     try:
         import distributed  # noqa: F401  (C needs it)
     except ImportError:
         sys.exit("C needs dask[distributed]: pip install 'lopsided[dask]'")
     with tempfile.TemporaryDirectory(prefix="lopsided-backends-") as folder:
-        timed_runs_in(Path(folder), rounds)
+        timed_runs_in(Path(folder), rounds, suite_file)
 
 
-def timed_runs_in(work, rounds):
-    path = work / "suite.toml"
-    path.write_text(textwrap.dedent(SUITE))
+def timed_runs_in(work, rounds, suite_file=None):
+    path = Path(suite_file) if suite_file else work / "suite.toml"
+    if not suite_file:
+        path.write_text(textwrap.dedent(SUITE))
     suite = load_suite(path)
     datasets = load_all(suite)
     units = plan(suite, datasets).units
-    print(f"suite: {len(units)} work units, {sum(len(u.cells) for u in units)} cells; {rounds} interleaved rounds",
-          flush=True)
+    print(f"suite {path.name}: {len(units)} work units, {sum(len(u.cells) for u in units)} cells; {rounds} "
+          "interleaved rounds", flush=True)
     runner, plain = "runner, serial, no report", "plain scikit-learn loop"
     serial, processes, dask = "end to end, serial", "end to end, processes x2", "end to end, dask x2"
-    actions = {
+    actions = {} if suite_file else {         # A on the built-in suite only (the loop knows its learners)
         runner: lambda r: runner_alone(path, work, r),
         plain: lambda r: one_thread_loop(suite, datasets, units),
+    }
+    actions.update({
         serial: lambda r: command_line(path, work / f"serial{r}", "--backend", "serial"),
         processes: lambda r: command_line(path, work / f"processes{r}", "--jobs", "2"),
         dask: lambda r: command_line(path, work / f"dask{r}", "--backend", "dask", "--jobs", "2"),
-    }
+    })
     wall, cpu = {name: [] for name in actions}, {name: [] for name in actions}
+    slower = []              # per round: the same cells' compute seconds in two workers over serial
     for r in range(rounds):
         for name, action in actions.items():
             seconds, spent = measured(lambda: action(r))
             wall[name].append(seconds)
             cpu[name].append(spent)
+        slower.append(compute_seconds(work / f"processes{r}") / compute_seconds(work / f"serial{r}"))
         print(f"  round {r + 1}: " + ", ".join(f"{k} {v[-1]:.1f} s" for k, v in wall.items()), flush=True)
     median = {k: statistics.median(v) for k, v in wall.items()}
     used = {k: statistics.median(v) for k, v in cpu.items()}
     for name in actions:
         print(f"{name:>28}: median {median[name]:.2f} s, CPU {used[name]:.2f} s")
-    print(f"A runner overhead, serial runner / plain loop:     {median[runner] / median[plain]:.3f} (target <= 1.05); "
-          f"CPU {used[runner] / used[plain]:.3f}")
+    if runner in median:
+        print(f"A runner overhead, serial runner / plain loop:     {median[runner] / median[plain]:.3f} "
+              f"(target <= 1.05); CPU {used[runner] / used[plain]:.3f}")
     print(f"B two processes over serial, end to end:           {median[serial] / median[processes]:.2f}  "
           f"(target >= 1.8); CPU spent, processes / serial {used[processes] / used[serial]:.3f}")
+    print(f"  this machine with both cores busy: the same cells' fit, predict and resample seconds took "
+          f"{statistics.median(slower):.3f}x as long in two workers as in the serial run (rounds: "
+          f"{', '.join(f'{x:.3f}' for x in slower)}), so two workers can gain at most "
+          f"{2 / statistics.median(slower):.2f}x on the units themselves")
     print(f"C Dask LocalCluster x2 / processes x2, end to end: {median[dask] / median[processes]:.3f} "
           f"(target <= 1.15); CPU {used[dask] / used[processes]:.3f}")
 
@@ -220,9 +244,11 @@ def main():
     parser = argparse.ArgumentParser()
     parser.add_argument("--rounds", type=int, default=3)
     parser.add_argument("--part", choices=("all", "runs", "store", "store-here"), default="all")
+    parser.add_argument("--suite", help="time B and C on this suite file instead (e.g. bench/quick.toml, the "
+                                        "README's job); A needs the built-in suite and is left out")
     args = parser.parse_args()
     if args.part in ("all", "runs"):
-        timed_runs(args.rounds)
+        timed_runs(args.rounds, args.suite)
     if args.part in ("all", "store"):       # a fresh process, so that its peak memory is the store's alone
         subprocess.run([sys.executable, __file__, "--part", "store-here"], check=True)
     if args.part == "store-here":
