@@ -40,7 +40,7 @@ from .metrics import predictions_and_scores, score_cell
 from .plugins import code_version
 from .protocol import Infeasible, class_orders, derive_seed, point_counts, point_rows, repeat_splits
 from .records import CellRow, Coordinates, Point, RunCounts
-from .resamplers.base import check_resampled
+from .resamplers.base import all_finite, check_resampled
 from .store import now
 
 PROTOCOL_VERSION = 1   # bump when splitting or subsetting changes what a cell computes
@@ -254,7 +254,9 @@ def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
              else None]
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
     weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
-    checked = _all_finite(X_test)          # X_res is: the resampler output rules saw to that
+    # learners skip their own finite checks (in every fit and predict; a forest's in every tree) when the
+    # test part is finite: the resampler output rules already proved the training part so
+    checked = all_finite(X_test)
     rows = []
     for position, cell in enumerate(unit.cells):
         try:
@@ -267,14 +269,6 @@ def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
                                 f"{cell.learner.title}", base, unit.cells[position + 1:])
             break
     return rows
-
-
-def _all_finite(X):
-    """Whether every value of X is finite: then the learners need not check it again in each fit and
-    predict (scikit-learn's ``assume_finite``; a forest checks once per tree). One sum decides unless it
-    overflows (NaN and infinity propagate through a sum)."""
-    with np.errstate(over="ignore", invalid="ignore"):
-        return bool(np.isfinite(np.sum(X))) or bool(np.isfinite(X).all())
 
 
 def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):

@@ -8,7 +8,8 @@ import pytest
 from lopsided.benchmark import run_suite
 from lopsided.cli import main
 from lopsided.datasets import load_dataset
-from lopsided.runner import _all_finite, plan
+from lopsided.resamplers.base import all_finite
+from lopsided.runner import plan
 from lopsided.store import Store
 from lopsided.suite import load_suite
 
@@ -209,10 +210,10 @@ def test_learners_skip_their_own_finite_checks_only_when_every_test_value_is_fin
     """One sum decides (NaN and infinity propagate through it); a sum that overflows on finite values
     (1e308 + 1e308) is checked value by value instead."""
     X = np.ones((50, 4))
-    assert _all_finite(X)
+    assert all_finite(X)
     for bad in (np.nan, np.inf, -np.inf):
         with_bad = X.copy()
         with_bad[17, 2] = bad
-        assert not _all_finite(with_bad)
-    assert _all_finite(np.full((3, 2), 1e308))
-    assert not _all_finite(np.array([[1e308, 1e308], [np.nan, 0.0]]))
+        assert not all_finite(with_bad)
+    assert all_finite(np.full((3, 2), 1e308))
+    assert not all_finite(np.array([[1e308, 1e308], [np.nan, 0.0]]))

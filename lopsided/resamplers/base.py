@@ -25,12 +25,16 @@ def check_shapes(X, y):
     return X, y
 
 
+def all_finite(X):
+    """Whether every value of X is finite. A finite sum proves it (NaN and infinity propagate through a
+    sum); only a sum that overflows needs the scan, value by value."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(np.sum(X))) or bool(np.isfinite(X).all())
+
+
 def finite(X):
     """X, once every value is known to be finite (else a ResamplingError)."""
-    # a finite sum proves every value finite (NaN and infinity propagate); only an overflowing sum needs the scan
-    with np.errstate(over="ignore", invalid="ignore"):
-        total = X.sum()
-    if not np.isfinite(total) and not np.isfinite(X).all():
+    if not all_finite(X):
         raise ResamplingError("X holds NaN or infinite values; impute them in the preprocessing list first")
     return X
 
@@ -78,7 +82,7 @@ def check_resampled(name, X_in, y_in, X_out, y_out):
          "returns a 2-D X and a 1-D y of the same length"),
         (X_out.ndim == 2 and X_out.shape[1] == X_in.shape[1],
          f"keeps the number of features ({X_in.shape[1]})"),
-        (np.issubdtype(X_out.dtype, np.number) and np.isfinite(X_out).all(), "returns finite numbers only"),
+        (np.issubdtype(X_out.dtype, np.number) and all_finite(X_out), "returns finite numbers only"),
         (np.isin(y_out, np.unique(y_in)).all(), "draws labels only from the input's labels"),
         (np.isin(np.unique(y_in), y_out).all(), "keeps at least one sample of every class"),
     )
