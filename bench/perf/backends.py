@@ -43,6 +43,7 @@ from runner_overhead import plain_loop, timed
 from threadpoolctl import threadpool_limits
 
 from lopsided.benchmark import load_all
+from lopsided.errors import LopsidedError
 from lopsided.records import CellRow
 from lopsided.runner import BATCH_CELLS, plan, run_plan
 from lopsided.store import Store
@@ -248,7 +249,10 @@ def main():
                                         "README's job); A needs the built-in suite and is left out")
     args = parser.parse_args()
     if args.part in ("all", "runs"):
-        timed_runs(args.rounds, args.suite)
+        try:
+            timed_runs(args.rounds, args.suite)
+        except LopsidedError as exc:          # a --suite that does not load: one line, as lopsided says it
+            sys.exit(f"backends.py: {exc}")
     if args.part in ("all", "store"):       # a fresh process, so that its peak memory is the store's alone
         subprocess.run([sys.executable, __file__, "--part", "store-here"], check=True)
     if args.part == "store-here":
