@@ -117,6 +117,17 @@ def make_learner(spec, random_state=None):
     return model.set_params(**seeds) if seeds else model
 
 
+def check_parameters(model):
+    """Check the parameters of ``model`` and of every scikit-learn estimator inside it against their
+    declared constraints, raising scikit-learn's own error, once: cells then fit with scikit-learn's
+    parameter validation off (``skip_parameter_validation``), which an ensemble otherwise repeats for
+    every member it fits."""
+    inside = model.get_params(deep=True).values() if isinstance(model, BaseEstimator) else ()
+    for estimator in (model, *inside):
+        if isinstance(estimator, BaseEstimator) and hasattr(estimator, "_parameter_constraints"):
+            estimator._validate_params()
+
+
 def weight_arguments(model, weights, title):
     """fit() keyword for per-sample weights ({} without weights); routed to a pipeline's last step."""
     if weights is None:

@@ -12,7 +12,7 @@ both curve metrics of a score column from one sort of that column, with a thresh
 distinct score value (ties fall together), as scikit-learn's metric functions define them.
 """
 import numpy as np
-from sklearn.ensemble import RandomForestClassifier
+from sklearn.ensemble import AdaBoostClassifier, RandomForestClassifier
 
 from .errors import MethodError
 
@@ -30,19 +30,46 @@ METRICS = {
 NAN = float("nan")
 
 
-# Classifiers whose own predict() is by definition the class of largest predict_proba(), first class on
-# ties (scikit-learn's forests: ``self.classes_.take(np.argmax(proba, axis=1))``), so that one call gives both.
-PREDICTS_BY_PROBABILITY = {RandomForestClassifier.predict}
+def _by_probability(model, X, n_classes):
+    """scikit-learn's forests: ``predict`` is ``classes_.take(argmax(predict_proba))`` (ForestClassifier),
+    first class on ties, so one walk of the trees gives both."""
+    probabilities = model.predict_proba(X)
+    return model.classes_.take(np.argmax(probabilities, axis=1)), _spread(model, probabilities, len(X), n_classes)
+
+
+def _by_decision(model, X, n_classes):
+    """scikit-learn's AdaBoost (SAMME): ``predict`` and ``predict_proba`` each run ``decision_function``
+    over every member; both are computed here from one run of it, with the formulas of their source
+    (Zhu, Zou, Rosset & Hastie 2009: probabilities = softmax(decision / (K - 1)))."""
+    decision = model.decision_function(X)
+    if model.n_classes_ == 2:
+        predicted = model.classes_.take(decision > 0, axis=0)
+    else:
+        predicted = model.classes_.take(np.argmax(decision, axis=1), axis=0)
+    probabilities = model._compute_proba_from_decision(decision, model.n_classes_)   # may scale decision in place
+    return predicted, _spread(model, probabilities, len(X), n_classes)
+
+
+def _one_pass(model):
+    """The function giving a model's predictions and probabilities from one pass over its members, if
+    the model's own ``predict`` and ``predict_proba`` are the scikit-learn methods it reproduces."""
+    kind = type(model)
+    if kind.predict is RandomForestClassifier.predict and getattr(model, "n_outputs_", 1) == 1:
+        return _by_probability
+    if (kind.predict is AdaBoostClassifier.predict and kind.predict_proba is AdaBoostClassifier.predict_proba
+            and getattr(model, "algorithm", "SAMME") != "SAMME.R" and getattr(model, "n_classes_", 0) >= 2):
+        return _by_decision
+    return None
 
 
 def predictions_and_scores(model, X, n_classes):
-    """(class indices the model predicts, ``class_scores``) for the rows of X. A forest's trees are
-    walked once (its predictions are the argmax of its probabilities); other models predict and score
-    with a call each, so their predictions stay exactly their own."""
-    if type(model).predict in PREDICTS_BY_PROBABILITY and getattr(model, "n_outputs_", 1) == 1:
-        probabilities = model.predict_proba(X)
-        predicted = model.classes_.take(np.argmax(probabilities, axis=1))
-        return np.asarray(predicted).astype(np.int64), _spread(model, probabilities, len(X), n_classes)
+    """(class indices the model predicts, ``class_scores``) for the rows of X. A forest's trees and an
+    AdaBoost ensemble's members are walked once for both (``_one_pass``); other models predict and
+    score with a call each, so their predictions stay exactly their own."""
+    one_pass = _one_pass(model)
+    if one_pass is not None:
+        predicted, scores = one_pass(model, X, n_classes)
+        return np.asarray(predicted).astype(np.int64), scores
     return np.asarray(model.predict(X)).astype(np.int64), class_scores(model, X, n_classes)
 
 

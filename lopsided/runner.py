@@ -255,12 +255,13 @@ def execute_unit(unit, data, preprocessing_specs, versions, timeout=None):
     base.update(n_resampled=len(y_res), resample_seconds=resample_seconds)
     weights = resampler.sample_weight(y_res) if hasattr(resampler, "sample_weight") else None
     # learners skip their own finite checks (in every fit and predict; a forest's in every tree) when the
-    # test part is finite: the resampler output rules already proved the training part so
+    # test part is finite: the resampler output rules already proved the training part so. They skip
+    # scikit-learn's parameter validation too: _fit_one checks every estimator's parameters once per cell.
     checked = all_finite(X_test)
     rows = []
     for position, cell in enumerate(unit.cells):
         try:
-            with sklearn.config_context(assume_finite=checked):
+            with sklearn.config_context(assume_finite=checked, skip_parameter_validation=True):
                 rows.append(_fit_one(cell, {**base, "code_version": ran[cell.key]}, X_res, y_res, weights, X_test,
                                      y_test, data, notes))
         except UnitTimeout:
@@ -277,6 +278,7 @@ def _fit_one(cell, base, X_res, y_res, weights, X_test, y_test, data, notes):
     with captured_warnings() as caught, captured_output() as printed:
         try:
             model = one_job(learner_registry.make_learner(cell.learner, cell.seed))
+            learner_registry.check_parameters(model)
             started = time.perf_counter()
             model.fit(X_res, y_res, **learner_registry.weight_arguments(model, weights, cell.learner.title))
             fitted = time.perf_counter()

@@ -144,3 +144,11 @@ class NamesItsProcess(Misbehaving):
             handle.write(f"{os.getpid()}\n")
         time.sleep(self.pause)
         return X, y
+
+
+def stumps_of_negative_depth(n_estimators=3):
+    """A learner (by import path) whose member trees carry a parameter scikit-learn refuses: only each
+    member's own fit would check it."""
+    from sklearn.ensemble import AdaBoostClassifier
+    from sklearn.tree import DecisionTreeClassifier
+    return AdaBoostClassifier(DecisionTreeClassifier(max_depth=-1), n_estimators=n_estimators)

@@ -7,7 +7,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from sklearn import metrics as skm
 from sklearn.base import BaseEstimator, ClassifierMixin
-from sklearn.ensemble import RandomForestClassifier
+from sklearn.ensemble import AdaBoostClassifier, RandomForestClassifier
+from sklearn.tree import DecisionTreeClassifier
 
 from lopsided.errors import MethodError
 from lopsided.metrics import class_scores, predictions_and_scores, score_cell
@@ -248,3 +249,27 @@ def test_a_forest_is_walked_once_and_predicts_as_its_own_predict_does():
     contrary = Contrary().fit(X, y // 2)
     predicted, scores = predictions_and_scores(contrary, X, 2)
     assert (predicted == 0).all() and (scores[:, 1] == 0.8).all()
+
+
+class CountedBoost(AdaBoostClassifier):
+    def decision_function(self, X):
+        self.runs = getattr(self, "runs", 0) + 1
+        return super().decision_function(X)
+
+
+@pytest.mark.parametrize("n_classes", [2, 3])
+def test_adaboost_runs_its_members_once_and_predicts_and_scores_as_its_own_methods_do(n_classes):
+    """AdaBoost's predict() and predict_proba() each run decision_function() over every member
+    (scikit-learn's AdaBoostClassifier, SAMME); one run gives both. With every member's weight set equal,
+    rows where the members split evenly have a decision of exactly 0, which predict() sends to the first
+    class; the one-pass predictions must do the same, and the scores must equal predict_proba() bit for bit."""
+    rng = np.random.default_rng(3)
+    X, y = rng.normal(size=(400, 4)), rng.integers(0, n_classes, 400)
+    boost = CountedBoost(DecisionTreeClassifier(max_depth=1), n_estimators=4, random_state=0).fit(X, y)
+    boost.estimator_weights_[:] = 1.0
+    predicted, scores = predictions_and_scores(boost, X, n_classes)
+    assert boost.runs == 1
+    if n_classes == 2:
+        assert (boost.decision_function(X) == 0).sum() > 20                  # the ties are there
+    assert np.array_equal(predicted, boost.predict(X))
+    assert np.array_equal(scores, boost.predict_proba(X))

@@ -217,3 +217,29 @@ def test_learners_skip_their_own_finite_checks_only_when_every_test_value_is_fin
         assert not all_finite(with_bad)
     assert all_finite(np.full((3, 2), 1e308))
     assert not all_finite(np.array([[1e308, 1e308], [np.nan, 0.0]]))
+
+
+def test_a_bad_parameter_inside_a_learner_still_fails_its_cells_with_scikit_learns_message(write_suite, tmp_path):
+    """Cells fit with scikit-learn's parameter validation off (an ensemble repeats it for every member);
+    learners.check_parameters checks every estimator inside a learner first, so a member's bad parameter
+    fails that learner's cells with scikit-learn's own message, and the other learner's cells stay ok."""
+    path = write_suite()
+    path.write_text(path.read_text().replace('learners = ["logistic-regression"',
+                                             'learners = ["plugins_for_tests:stumps_of_negative_depth"'))
+    cells = run_suite(path, out=tmp_path / "o", progress=False).cells
+    bad = cells[cells["learner"] == "plugins_for_tests:stumps_of_negative_depth"]
+    assert len(bad) and (bad["status"] == "failed").all()
+    assert bad["error"].str.contains("InvalidParameterError: The 'max_depth' parameter of "
+                                     "DecisionTreeClassifier must be").all()
+    assert (cells.loc[cells.index.difference(bad.index), "status"] == "ok").all()
+
+
+def test_every_built_in_learner_passes_the_parameter_check_and_a_bad_member_does_not():
+    """learners.check_parameters accepts every registered learner at its defaults, those with constraints
+    declared (scikit-learn's) and those without (our PLS-DA), and refuses a bad parameter of a member."""
+    from lopsided.learners import LEARNERS, check_parameters, make_learner
+    from lopsided.specs import MethodSpec
+    for name in LEARNERS:
+        check_parameters(make_learner(MethodSpec(name), random_state=1))
+    with pytest.raises(ValueError, match="'max_depth' parameter of DecisionTreeClassifier"):     # InvalidParameterError
+        check_parameters(make_learner(MethodSpec("plugins_for_tests:stumps_of_negative_depth")))
