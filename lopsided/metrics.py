@@ -57,7 +57,7 @@ def _one_pass(model):
     if kind.predict is RandomForestClassifier.predict and getattr(model, "n_outputs_", 1) == 1:
         return _by_probability
     if (kind.predict is AdaBoostClassifier.predict and kind.predict_proba is AdaBoostClassifier.predict_proba
-            and getattr(model, "algorithm", "SAMME") != "SAMME.R" and getattr(model, "n_classes_", 0) >= 2):
+            and getattr(model, "n_classes_", 0) >= 2):
         return _by_decision
     return None
 
