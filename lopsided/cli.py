@@ -6,7 +6,7 @@ import shlex
 import sys
 import traceback
 
-from .errors import LopsidedError
+from .errors import LopsidedError, UsageError
 
 LIST_KINDS = ("datasets", "resamplers", "learners", "metrics", "preprocessing")
 
@@ -51,7 +51,8 @@ def parser():
     rank.add_argument("scores", help="CSV: wide (dataset column, one column per method) or long (dataset, method, score)")
     rank.add_argument("--out", required=True, help="folder to write")
     rank.add_argument("--lower-is-better", action="store_true", help="smaller scores are better (errors, losses)")
-    rank.add_argument("--control", help="method to test the others against (Bonferroni-Dunn)")
+    rank.add_argument("--control", help="method to test the others against (Wilcoxon signed-rank, Holm over those "
+                      "comparisons; Bonferroni-Dunn numbers beside it)")
     rank.add_argument("--missing", default="drop-datasets", choices=("drop-datasets", "drop-methods"),
                       help="what to do with missing scores (default: drop incomplete datasets)")
     rank.add_argument("--metric", default="score", help="name of the score, for titles")
@@ -67,6 +68,27 @@ def parser():
                       help="largest allowed move of a row's metric mean, in metric units (default 0.02)")
     gate.add_argument("--metric", help="metric of the score check (default: the baseline's headline metric)")
     gate.add_argument("--out", help="also write the Markdown summary to this file")
+
+    export = sub.add_parser("export", help="write stored cells to a portable bundle (one Parquet file)")
+    export.add_argument("source", help="a leaderboard folder (its suite's cells) or a result store (every cell)")
+    export.add_argument("--out", required=True, help="bundle file to write, e.g. keel-all.cells.parquet")
+
+    merge = sub.add_parser("import", help="merge a bundle's cells into a store")
+    merge.add_argument("bundle", help="bundle file made by `lopsided export`")
+    merge.add_argument("--store", required=True, help="result store to merge into (created if missing)")
+    trust = merge.add_mutually_exclusive_group()
+    trust.add_argument("--verify", action="store_true", help="first recompute a sample here (as `lopsided verify`) "
+                       "and import only if it agrees: needed when the bundle was made with other package versions")
+    trust.add_argument("--unverified", action="store_true", help="import cells made with other package versions "
+                       "without checking them; every leaderboard that uses them says so")
+    merge.add_argument("--sample", type=int, default=60, help="cells recomputed by --verify (default 60)")
+    merge.add_argument("--jobs", type=int, default=1, help="local processes for --verify (default 1)")
+
+    check = sub.add_parser("verify", help="recompute a stratified sample of a bundle's cells here and compare")
+    check.add_argument("bundle", help="bundle file made by `lopsided export`")
+    check.add_argument("--sample", type=int, default=60, help="cells to recompute (default 60; every dataset, "
+                       "resampler and learner is represented even if that takes more)")
+    check.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
 
     listing = sub.add_parser("list", help="what is available")
     listing.add_argument("kind", choices=LIST_KINDS)
@@ -100,6 +122,8 @@ def parser():
     trial.add_argument("--folds", type=int, help="folds (default: the suite's)")
     trial.add_argument("--test", default="folds", help="test design: folds (default), fixed, column:NAME=VALUE "
                        "(a designated cohort) or a dataset reference (an external test set)")
+    trial.add_argument("--count", choices=("rows", "groups"), help="what --sizes and the answer count: rows, or "
+                       "groups (donors, specimens, particles); default: groups when the data have groups")
     trial.add_argument("--jobs", type=int, default=1, help="local processes (default 1)")
     trial.add_argument("--out", help="folder to write (default results/try-<dataset>)")
     trial.add_argument("--quiet", action="store_true", help="no progress bar")
@@ -116,6 +140,18 @@ def _stats_options(command):
     command.add_argument("--alpha", type=float, default=0.05, help="significance level (default 0.05)")
     command.add_argument("--rope", type=float, default=0.01,
                          help="region of practical equivalence for the Bayesian test, in score units (default 0.01)")
+
+
+def _stats(args):
+    """StatsOptions from --alpha and --rope."""
+    from .options import StatsOptions
+    return StatsOptions(alpha=args.alpha, rope=args.rope)
+
+
+def _execution(args, **given):
+    """ExecutionOptions from --jobs and --quiet (and what else the command has)."""
+    from .options import ExecutionOptions
+    return ExecutionOptions(jobs=args.jobs, progress=not args.quiet, **given)
 
 
 def main(argv=None):
@@ -146,14 +182,16 @@ def main(argv=None):
 
 
 def _run(args):
-    from .backends import start_early
+    from .execution.backends import start_early
     start_early(args.backend, args.scheduler)      # before the imports below: a Dask fork server imports beside them
-    from .benchmark import run_suite
-    result = run_suite(args.suite, jobs=args.jobs, out=args.out, store=args.store,
-                       add_resamplers=args.add_resampler, drop_resamplers=args.drop_resampler,
-                       retry_failed=args.retry_failed, progress=not args.quiet, alpha=args.alpha, rope=args.rope,
-                       compare_split_leakage=args.compare_split_leakage, command=args.command_line,
-                       backend=args.backend, scheduler=args.scheduler, timeout=args.timeout)
+    from .jobs.run import run_suite
+    from .options import RunOptions
+    execution = _execution(args, backend=args.backend, scheduler=args.scheduler, timeout=args.timeout,
+                           retry_failed=args.retry_failed)
+    result = run_suite(args.suite, RunOptions(out=args.out, store=args.store, add_resamplers=tuple(args.add_resampler),
+                                              drop_resamplers=tuple(args.drop_resampler),
+                                              split_leakage=args.compare_split_leakage, command=args.command_line,
+                                              execution=execution, stats=_stats(args)))
     cells = result.summary.cells
     print(f"cells: {cells.planned} planned, {cells.reused} reused from the store, {cells.computed} computed "
           f"({cells.failed_now} failed), {cells.skipped_points} infeasible fold-points skipped; "
@@ -163,39 +201,48 @@ def _run(args):
 
 
 def _print_top(out, rows=8):
+    """The primary analysis's all-combinations ranking and the per-learner answers, from stats.json."""
     import pandas as pd
-    comparisons = json.loads((out / "stats.json").read_text())["comparisons"]
-    if not comparisons:
+    stats = json.loads((out / "stats.json").read_text())
+    primary = stats.get("primary") or {}
+    made = [c for c in stats["comparisons"] if "average_ranks" in c]
+    view = next((c for c in made if c["view"] == "all" and c["metric"] == primary.get("metric")
+                 and (str(c["ratio"]), str(c["size"])) == (str(primary.get("ratio")), str(primary.get("size")))), None)
+    if view is None:
         print("no comparison could be made (see leaderboard.md)")
         return
-    view = next((c for c in comparisons if c["view"] == "all"), comparisons[0])
     table = pd.DataFrame(list(view["average_ranks"].items())[:rows], columns=["method", "average rank"])
     table.index = range(1, len(table) + 1)
     decision = view["decision"]
-    verdict = (f"{decision['test']} = {decision['p']:.3g}" if decision["claims_allowed"]
-               else "too few datasets for a significance claim")
-    print(f"\n{view['metric']} at ratio={view['ratio']}, size={view['size']}, {view['n_datasets']} datasets "
-          f"({verdict}; Nemenyi CD = {view['nemenyi']['cd']:.2f}):")
+    verdict = (f"{decision['test']} = {decision['p']:.3g}, adjusted {decision['adjusted_p']:.3g}"
+               if decision["claims_allowed"] else "too few datasets for a significance claim")
+    print(f"\nprimary analysis, {view['metric']} at ratio={view['ratio']}, size={view['size']}, {view['n_datasets']} "
+          f"datasets ({verdict}):")
     print(table.to_string(float_format=lambda v: f"{v:.2f}"), "\n")
+    for answer in stats.get("answers", []):
+        print("- " + " ".join(answer["sentences"][:2]))
+    if stats.get("answers"):
+        print()
 
 
 def _report(args):
-    from .benchmark import rebuild_report
-    out = rebuild_report(args.source, out=args.out, alpha=args.alpha, rope=args.rope,
-                         drop_resamplers=args.drop_resampler, command=args.command_line)
+    from .jobs.run import rebuild_report
+    from .options import ReportOptions
+    out = rebuild_report(args.source, ReportOptions(out=args.out, drop_resamplers=tuple(args.drop_resampler),
+                                                    command=args.command_line, stats=_stats(args)))
     print(f"leaderboard rebuilt from stored cells: {out}/index.html")
 
 
 def _rank(args):
-    from .ranking import rank_file
-    out = rank_file(args.scores, args.out, higher_is_better=not args.lower_is_better, alpha=args.alpha,
-                    control=args.control, rope=args.rope, missing=args.missing, metric=args.metric)
+    from .jobs.rank import rank_file
+    out = rank_file(args.scores, args.out, _stats(args), higher_is_better=not args.lower_is_better,
+                    control=args.control, missing=args.missing, metric=args.metric)
     print(f"wrote {out}/stats.json, {out}/ranking.md, {out}/cd.svg and {out}/cd.png")
     print((out / "ranking.md").read_text().split("\n## ", 1)[0])
 
 
-def _compare(args):
-    from .regression import gate, write_summary
+def _gate(args):
+    from .jobs.gate import gate, write_summary
     result, text = gate(args.baseline, args.new, metric=args.metric, rank_threshold=args.rank_threshold,
                         tolerance=args.tolerance)
     print(text)
@@ -205,15 +252,15 @@ def _compare(args):
 
 
 def _list(args):
-    from . import datasets, learners, metrics, preprocessing, resamplers
-    from .registry import BUILT_IN, Listing
+    from . import datasets
+    from .methods import learners, metrics, preprocessing, resamplers
     rows = {
-        "datasets": datasets.DATASETS.describe,
-        "resamplers": resamplers.describe,
-        "learners": learners.describe,
-        "metrics": lambda: [Listing(name, text, BUILT_IN) for name, text in metrics.METRICS.items()],
-        "preprocessing": preprocessing.describe,
-    }[args.kind]()
+        "datasets": datasets.DATASETS,
+        "resamplers": resamplers.REGISTRY,
+        "learners": learners.REGISTRY,
+        "metrics": metrics.REGISTRY,
+        "preprocessing": preprocessing.REGISTRY,
+    }[args.kind].describe()
     width = max(len(row.name) for row in rows)
     origin = max(len(row.origin) for row in rows)
     for row in rows:
@@ -253,7 +300,7 @@ def _datasets(args):
         references = [f"keel:{name}" for name in datasets.keel.collection_names()]
         base = None
     elif args.suite:
-        from .suite import load_suite
+        from .planning.suite import load_suite
         suite = load_suite(args.suite)
         references, base = suite.datasets, suite.folder
     else:
@@ -285,28 +332,81 @@ def _check_openml():
     return 1 if problems else 0
 
 
+def _export(args):
+    from .jobs.bundles import export
+    header = export(args.source, args.out)
+    suites = ", ".join(f"{s['name']} ({s['fingerprint']})" for s in header["suites"]) or "no finished run"
+    size = _size(args.out)
+    print(f"wrote {args.out}: {header['cells']} cells of {len(header['datasets'])} datasets, suites {suites}, "
+          f"lopsided {header['lopsided']}, sha256 {header['sha256'][:16]}, {size}")
+
+
+def _size(path):
+    from pathlib import Path
+    return f"{Path(path).stat().st_size / 1e6:.1f} MB"
+
+
+def _import(args):
+    from .jobs.bundles import BundleError, import_bundle, verify
+    trust = "unverified" if args.unverified else ""
+    if args.verify:
+        checked = verify(args.bundle, _positive(args.sample, "--sample"), _positive(args.jobs, "--jobs"))
+        print("verify: " + checked.summary())
+        if not checked.agrees:
+            for line in (checked.differ + checked.not_recomputed)[:20]:
+                print(f"  {line}", file=sys.stderr)
+            raise BundleError(args.bundle, "verify", "the sample does not reproduce here; nothing was imported")
+        trust = f"verified here: {checked.exact} of {checked.sampled} cells exact, {checked.close} within tolerance"
+    merged = import_bundle(args.bundle, args.store, trust)
+    if merged.conflicts:
+        for line in merged.conflicts[:20]:
+            print(f"conflict: {line}", file=sys.stderr)
+        more = f" (and {len(merged.conflicts) - 20} more)" if len(merged.conflicts) > 20 else ""
+        raise BundleError(args.bundle, "cells", f"{len(merged.conflicts)} cells are stored in {args.store} under the "
+                          f"same key with other numbers{more}; nothing was imported")
+    print(f"imported {merged.added} cells into {args.store} ({merged.same} already stored alike); suites "
+          f"{', '.join(merged.suites)}; {merged.datasets} datasets; {merged.trust}")
+
+
+def _verify(args):
+    from .jobs.bundles import verify
+    checked = verify(args.bundle, _positive(args.sample, "--sample"), _positive(args.jobs, "--jobs"))
+    print("verify: " + checked.summary())
+    for line in (checked.differ + checked.not_recomputed)[:20]:
+        print(f"  {line}")
+    return 0 if checked.agrees else 1
+
+
 def _try(args):
-    from .tryout import parse_targets, try_dataset
+    from .jobs.tryout import parse_targets, try_dataset
+    from .options import TryOptions
     sizes = None
     if args.sizes:
-        sizes = [text.strip() if text.strip() == "all" else _whole(text, "--sizes") for text in args.sizes.split(",")]
-    result = try_dataset(args.dataset, suite_path=args.suite, board=args.board, top=args.top, combos=tuple(args.combos),
-                         targets=parse_targets(args.target), sizes=sizes, repeats=args.repeats, folds=args.folds,
-                         out=args.out, jobs=args.jobs, progress=not args.quiet, rope=args.rope, alpha=args.alpha,
-                         command=args.command_line, test=args.test)
+        sizes = tuple(text.strip() if text.strip() == "all" else _whole(text, "--sizes") for text in args.sizes.split(","))
+    result = try_dataset(args.dataset, TryOptions(
+        suite=args.suite, board=args.board, top=args.top, combos=tuple(args.combos), targets=parse_targets(args.target),
+        sizes=sizes, repeats=args.repeats, folds=args.folds, test=args.test, count=args.count, out=args.out,
+        command=args.command_line, execution=_execution(args), stats=_stats(args)))
     print("\n".join(result.verdict))
     print(f"\nleaderboard: {result.out}/leaderboard.md and {result.out}/index.html")
 
 
 def _whole(text, option):
-    from .errors import SuiteError
     try:
         return int(text)
     except ValueError:
-        raise SuiteError(option, text, "give whole numbers or 'all', comma-separated") from None
+        raise UsageError(option, text, "give whole numbers or 'all', comma-separated") from None
 
 
-COMMANDS = {"run": _run, "report": _report, "rank": _rank, "compare": _compare, "list": _list, "datasets": _datasets, "try": _try}
+def _positive(value, option):
+    """A whole number >= 1 given to ``option``, else one clear error."""
+    if not isinstance(value, int) or value < 1:
+        raise UsageError(option, str(value), "give a whole number >= 1")
+    return value
+
+
+COMMANDS = {"run": _run, "report": _report, "rank": _rank, "compare": _gate, "list": _list, "datasets": _datasets,
+            "try": _try, "export": _export, "import": _import, "verify": _verify}
 
 
 def command():

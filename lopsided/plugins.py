@@ -1,11 +1,11 @@
-"""Finding methods by name, import path or entry point, and building them with parameters."""
+"""Finding methods by import path or entry point, the parameters a factory takes, and code versions."""
 import hashlib
 import importlib
 import inspect
 from importlib import metadata
 
 from . import __version__
-from .errors import MethodError, unknown
+from .errors import MethodError
 
 
 def import_object(path):
@@ -44,8 +44,11 @@ def code_version(obj):
     distributions = metadata.packages_distributions().get(top, [])
     if distributions:
         return f"{distributions[0]} {metadata.version(distributions[0])}"
+    module = inspect.getmodule(obj)
+    if module is None:
+        return "unknown"
     try:
-        source = inspect.getsource(inspect.getmodule(obj))
+        source = inspect.getsource(module)
     except (OSError, TypeError):
         return "unknown"
     return f"{module_name} source {hashlib.sha256(source.encode()).hexdigest()[:12]}"
@@ -63,17 +66,3 @@ def accepted_params(factory):
     fixed = set(getattr(factory, "keywords", {}) or {})
     return {name for name in signature.parameters if name != "self"} - fixed
 
-
-def build(kind, title, factory, params):
-    """factory(**params), turning a wrong parameter into a MethodError naming the method."""
-    allowed = accepted_params(factory)
-    if allowed is not None:
-        for key in params:
-            if key not in allowed:
-                raise MethodError(f"{kind} {title}: {unknown('parameter', key, allowed)}")
-    try:
-        return factory(**params)
-    except MethodError:
-        raise
-    except Exception as exc:
-        raise MethodError(f"{kind} {title}: cannot be built with {params} ({type(exc).__name__}: {exc})") from None

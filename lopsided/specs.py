@@ -59,6 +59,16 @@ class MethodSpec:
         """What tables and plots show."""
         return self.label or self.canonical
 
+    def as_json(self):
+        """{name, params, label}: how suites in the store, bundles and the added-methods table keep it (the label
+        written is the title)."""
+        return {"name": self.name, "params": dict(self.params), "label": self.title}
+
+    @classmethod
+    def from_json(cls, data):
+        """The spec back from ``as_json``."""
+        return cls(data["name"], data["params"], data["label"])
+
     def __eq__(self, other):
         return isinstance(other, MethodSpec) and self.canonical == other.canonical
 

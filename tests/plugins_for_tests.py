@@ -8,6 +8,8 @@ from pathlib import Path
 
 import numpy as np
 
+from lopsided.methods.resamplers.random import RandomUnder
+
 
 class Recording:
     """Passes data through and records the row ids (column 0) it was shown: one .npy file per call in
@@ -152,3 +154,76 @@ def stumps_of_negative_depth(n_estimators=3):
     from sklearn.ensemble import AdaBoostClassifier
     from sklearn.tree import DecisionTreeClassifier
     return AdaBoostClassifier(DecisionTreeClassifier(max_depth=-1), n_estimators=n_estimators)
+
+
+class RecordingGroups:
+    """Passes data through and records the groups it was given with the training rows: one .npy per call
+    with groups."""
+
+    def __init__(self, record, random_state=None):
+        self.record = record
+        self.random_state = random_state
+
+    def fit_resample(self, X, y, groups=None):
+        if groups is not None:                      # data without groups: nothing to record
+            np.save(Path(self.record) / f"{uuid.uuid4().hex}.npy", np.asarray(groups).astype(str))
+        return X, y
+
+
+class RecordingLearner:
+    """A nearest-centroid classifier that records the row ids (column 0) it is fitted on and scores: files
+    fit-*.npy and score-*.npy in ``record``."""
+
+    def __init__(self, record="", random_state=None):
+        self.record = record
+        self.random_state = random_state
+
+    def get_params(self, deep=True):
+        return {"record": self.record, "random_state": self.random_state}
+
+    def set_params(self, **params):
+        for name, value in params.items():
+            setattr(self, name, value)
+        return self
+
+    def fit(self, X, y):
+        np.save(Path(self.record) / f"fit-{uuid.uuid4().hex}.npy", X[:, 0].astype(int))
+        self.classes_ = np.unique(y)
+        self.centres_ = np.array([X[y == c, 1:].mean(axis=0) for c in self.classes_])
+        return self
+
+    def predict_proba(self, X):
+        np.save(Path(self.record) / f"score-{uuid.uuid4().hex}.npy", X[:, 0].astype(int))
+        distance = ((X[:, None, 1:] - self.centres_[None]) ** 2).sum(axis=2)
+        weight = np.exp(-(distance - distance.min(axis=1, keepdims=True)))
+        return weight / weight.sum(axis=1, keepdims=True)
+
+    def predict(self, X):
+        return self.classes_[np.argmax(self.predict_proba(X), axis=1)]
+
+
+class Gated(RandomUnder):
+    """Random under-sampling that appends its process id to the file ``log`` at every call; after the
+    first ``free`` calls (counted across processes), a call waits while the file ``gate`` exists. While a
+    file ``log``.meet holds a number m, a call waits (up to 30 s) until m different processes have logged a
+    call: every worker then takes part, whatever the operating system's scheduling (a file, so the cell
+    keys stay those of the suite)."""
+
+    def __init__(self, balance=1.0, random_state=None, log="", gate="", free=0):
+        super().__init__(balance, random_state)
+        self.log, self.gate, self.free = log, gate, free
+
+    def rebalance(self, X, y):
+        with open(self.log, "a") as handle:
+            handle.write(f"{os.getpid()}\n")
+        meet = Path(f"{self.log}.meet")
+        if meet.exists():
+            waited = time.monotonic()
+            while len(set(Path(self.log).read_text().split())) < int(meet.read_text()) \
+                    and time.monotonic() - waited < 30:
+                time.sleep(0.02)
+        if len(Path(self.log).read_text().split()) > self.free:
+            waited = time.monotonic()
+            while self.gate and os.path.exists(self.gate) and time.monotonic() - waited < 120:
+                time.sleep(0.02)
+        return super().rebalance(X, y)

@@ -2,11 +2,13 @@
 versions checked, batched whole-unit writes, clean stops on SIGINT / SIGTERM, lost Dask workers.
 
 The Dask tests start (and stop) their own clusters on 127.0.0.1 and are skipped, with the reason
-stated, only when dask[distributed] is not installed. The classes below are plugins the runs load
-by import path (``test_backends:Gated``); subprocesses and worker processes find them through PYTHONPATH.
+stated, only when dask[distributed] is not installed. The classes below and those of
+plugins_for_tests.py are plugins the runs load by import path (``test_backends:Inspects``,
+``plugins_for_tests:Gated``); subprocesses and worker processes find them through PYTHONPATH.
 """
 import json
 import os
+import re
 import signal
 import sqlite3
 import subprocess
@@ -25,47 +27,24 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 from threadpoolctl import threadpool_info
 
-import lopsided.runner as runner
-from lopsided.backends import BackendError, choose, open_backend
-from lopsided.backends.worker import captured_warnings
-from lopsided.benchmark import load_all, run_suite
+import lopsided.execution.driver as driver
+import lopsided.execution.units as units
+from lopsided import __version__
 from lopsided.cli import main
-from lopsided.resamplers.random import RandomUnder
-from lopsided.runner import plan, run_plan, run_unit
-from lopsided.store import Store
-from lopsided.suite import load_suite
+from lopsided.execution.backends import BackendError, choose, open_backend
+from lopsided.execution.backends.worker import captured_warnings
+from lopsided.execution.driver import run_plan
+from lopsided.execution.store import Store
+from lopsided.execution.units import run_unit
+from lopsided.jobs.run import load_all, run_suite
+from lopsided.options import ExecutionOptions, RunOptions
+from lopsided.planning.plan import plan
+from lopsided.planning.suite import load_suite
 
 HERE = Path(__file__).parent
 METRICS = ["balanced_accuracy", "mcc", "g_mean", "roc_auc", "average_precision"]
 NO_DASK = "dask[distributed] is not installed (pip install 'lopsided[dask]')"
-QUIET = {"scheduler_kwargs": {"dashboard": False, "dashboard_address": "127.0.0.1:0"}}    # no port 8787
-
-
-class Gated(RandomUnder):
-    """Random under-sampling that appends its process id to the file ``log`` at every call; after the
-    first ``free`` calls (counted across processes), a call waits while the file ``gate`` exists. While a
-    file ``log``.meet holds a number m, a call waits (up to 30 s) until m different processes have logged a
-    call: every worker then takes part, whatever the operating system's scheduling (a file, so the cell
-    keys stay those of the suite)."""
-
-    def __init__(self, balance=1.0, random_state=None, log="", gate="", free=0):
-        super().__init__(balance, random_state)
-        self.log, self.gate, self.free = log, gate, free
-
-    def fit_resample(self, X, y):
-        with open(self.log, "a") as handle:
-            handle.write(f"{os.getpid()}\n")
-        meet = Path(f"{self.log}.meet")
-        if meet.exists():
-            waited = time.monotonic()
-            while len(set(Path(self.log).read_text().split())) < int(meet.read_text()) \
-                    and time.monotonic() - waited < 30:
-                time.sleep(0.02)
-        if len(Path(self.log).read_text().split()) > self.free:
-            waited = time.monotonic()
-            while self.gate and os.path.exists(self.gate) and time.monotonic() - waited < 120:
-                time.sleep(0.02)
-        return super().fit_resample(X, y)
+NO_DASHBOARD = {"scheduler_kwargs": {"dashboard": False, "dashboard_address": "127.0.0.1:0"}}    # no port 8787
 
 
 class Inspects(ClassifierMixin, BaseEstimator):
@@ -116,14 +95,15 @@ def write_suite(folder, name, resampler, learners='["logistic-regression", "test
     return path
 
 
-def run_cells(path, store, **options):
-    """Run a suite's plan into ``store`` (no leaderboard): (counts, the plan's stored cells)."""
+def run_cells(path, store, beside=None, **options):
+    """Run a suite's plan into ``store`` (no leaderboard) with ExecutionOptions ``options`` and ``beside`` work:
+    (counts, the plan's stored cells)."""
     suite = load_suite(path)
     datasets = load_all(suite)
     full = plan(suite, datasets)
     db = Store(store)
     try:
-        counts = run_plan(full, datasets, suite, db, progress=False, **options)
+        counts = run_plan(full, datasets, suite, db, ExecutionOptions(progress=False, **options), beside)
         return counts, db.cells(full.keys)
     finally:
         db.close()
@@ -150,8 +130,8 @@ def folder(tmp_path_factory):
 def counted(folder):
     """A suite whose second resampler logs its calls, and its serial run (the reference)."""
     log = folder / "calls.txt"
-    path = write_suite(folder, "counted", f"test_backends:Gated?log={log}")
-    reference = run_suite(path, out=folder / "serial", progress=False, backend="serial")
+    path = write_suite(folder, "counted", f"plugins_for_tests:Gated?log={log}")
+    reference = run_suite(path, RunOptions(out=folder / "serial", execution=ExecutionOptions(progress=False, backend="serial")))
     return path, log, reference, calls(log)
 
 
@@ -159,13 +139,13 @@ def counted(folder):
 def cluster():
     distributed = pytest.importorskip("distributed", reason=NO_DASK)
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                                  **QUIET) as local:
+                                  **NO_DASHBOARD) as local:
         yield local
 
 
 def gated_units(path):
     suite = load_suite(path)
-    return [u for u in plan(suite, load_all(suite)).units if u.resampler.name == "test_backends:Gated"]
+    return [u for u in plan(suite, load_all(suite)).units if u.resampler.name == "plugins_for_tests:Gated"]
 
 
 def test_serial_runs_resample_each_unit_once_and_limit_threads_and_jobs(counted):
@@ -180,7 +160,7 @@ def test_two_processes_give_identical_cells_and_resample_each_unit_once(counted,
     meet = Path(f"{log}.meet")
     meet.write_text("2")                                  # both workers must take part
     try:
-        result = run_suite(path, out=folder / "processes", progress=False, jobs=2)
+        result = run_suite(path, RunOptions(out=folder / "processes", execution=ExecutionOptions(progress=False, jobs=2)))
     finally:
         meet.unlink()
     pids = calls(log)
@@ -195,7 +175,7 @@ def test_two_processes_give_identical_cells_and_resample_each_unit_once(counted,
 
 def test_a_dask_cluster_gives_identical_cells_and_resamples_each_unit_once(counted, folder, cluster):
     path, log, reference, _ = counted
-    result = run_suite(path, out=folder / "dask", progress=False, scheduler=cluster.scheduler_address)
+    result = run_suite(path, RunOptions(out=folder / "dask", execution=ExecutionOptions(progress=False, scheduler=cluster.scheduler_address)))
     pids = calls(log)
     assert len(pids) == len(gated_units(path)) and str(os.getpid()) not in pids
     assert metric_text(result.cells) == metric_text(reference.cells)
@@ -208,7 +188,7 @@ def test_a_dask_cluster_gives_identical_cells_and_resamples_each_unit_once(count
 def test_a_lost_dask_worker_only_causes_its_units_to_run_again(folder, cluster):
     distributed = pytest.importorskip("distributed", reason=NO_DASK)
     log, gate = folder / "lost.txt", folder / "lost.gate"
-    path = write_suite(folder, "lost", f"test_backends:Gated?log={log}&gate={gate}&free=3",
+    path = write_suite(folder, "lost", f"plugins_for_tests:Gated?log={log}&gate={gate}&free=3",
                        learners='["logistic-regression"]')
     _, reference = run_cells(path, folder / "lost-serial.sqlite")       # no gate yet: nothing waits
     calls(log)
@@ -247,7 +227,7 @@ def test_warnings_stay_with_their_cell_when_units_run_in_threads(folder):
     distributed = pytest.importorskip("distributed", reason=NO_DASK)
     path = write_suite(folder, "threads", "random-under", learners='["test_backends:Announces"]', repeats=1)
     _, serial = run_cells(path, folder / "threads-serial.sqlite")
-    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False, **QUIET) as local:
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False, **NO_DASHBOARD) as local:
         _, threaded = run_cells(path, folder / "threads-dask.sqlite", scheduler=local.scheduler_address)
     for cells in (serial, threaded):
         own = [w.startswith(f"UserWarning: seed {seed} first (+") for w, seed in zip(cells["warning"], cells["seed"])]
@@ -279,18 +259,18 @@ def test_a_result_from_other_code_is_refused(folder, monkeypatch):
     path = write_suite(folder, "versions", "random-under", learners='["logistic-regression"]', repeats=1)
     suite = load_suite(path)
     datasets = load_all(suite)
-    real = runner.worker_versions
+    real = units.worker_versions
 
     def older_resampler(unit, preprocessing):
         ran = real(unit, preprocessing)
         return {**ran, "resampler": "lopsided 0.0.1"} if unit.resampler.name == "random-under" else ran
 
-    monkeypatch.setattr(runner, "worker_versions", older_resampler)
+    monkeypatch.setattr(units, "worker_versions", older_resampler)
     db = Store(folder / "versions.sqlite")
     try:
         with pytest.raises(BackendError, match=r"resampler random-under: the worker ran 'lopsided 0\.0\.1', but the "
-                                               r"plan and its cell keys use 'lopsided 0\.1\.0'"):
-            run_plan(plan(suite, datasets), datasets, suite, db, progress=False)
+                                               rf"plan and its cell keys use 'lopsided {re.escape(__version__)}'"):
+            run_plan(plan(suite, datasets), datasets, suite, db, ExecutionOptions(progress=False))
         kept = db.cells()
     finally:
         db.close()
@@ -301,14 +281,14 @@ def test_the_driver_writes_whole_units_in_batches(folder, monkeypatch):
     path = write_suite(folder, "batches", "random-under")
     suite = load_suite(path)
     datasets = load_all(suite)
-    monkeypatch.setattr(runner, "BATCH_CELLS", 10)
-    monkeypatch.setattr(runner, "BATCH_SECONDS", float("inf"))
+    monkeypatch.setattr(driver, "BATCH_CELLS", 10)
+    monkeypatch.setattr(driver, "BATCH_SECONDS", float("inf"))
     db = Store(folder / "batches.sqlite")
     batches = []
     write = db.write_cells
     monkeypatch.setattr(db, "write_cells", lambda rows: (batches.append(list(rows)), write(rows)))
     try:
-        counts = run_plan(plan(suite, datasets), datasets, suite, db, progress=False)
+        counts = run_plan(plan(suite, datasets), datasets, suite, db, ExecutionOptions(progress=False))
     finally:
         db.close()
     assert counts.computed == 2 * 2 * 3 * 2 * 2 == sum(map(len, batches))
@@ -337,7 +317,7 @@ def test_backend_choices_and_their_errors():
 
 def test_an_unreachable_scheduler_is_one_clear_error(monkeypatch):
     pytest.importorskip("distributed", reason=NO_DASK)
-    from lopsided.backends import cluster
+    from lopsided.execution.backends import cluster
     monkeypatch.setattr(cluster, "CONNECT_SECONDS", 1)
     with pytest.raises(BackendError, match="--scheduler tcp://127.0.0.1:9: no Dask scheduler answers there"):
         open_backend("auto", run_unit, {}, scheduler="tcp://127.0.0.1:9")
@@ -356,7 +336,7 @@ def test_without_dask_the_dask_backend_says_what_to_install(folder, monkeypatch,
 def uninterrupted(folder):
     """The gated suite's cells from a run nobody stops (the gate file is absent, so nothing waits)."""
     log, gate = folder / "stop.txt", folder / "stop.gate"
-    path = write_suite(folder, "stopping", f"test_backends:Gated?log={log}&gate={gate}&free=4",
+    path = write_suite(folder, "stopping", f"plugins_for_tests:Gated?log={log}&gate={gate}&free=4",
                        learners='["logistic-regression"]')
     _, cells = run_cells(path, folder / "stop-reference.sqlite")
     calls(log)
@@ -461,7 +441,7 @@ def test_a_failed_run_waits_for_the_work_beside_it(folder, monkeypatch):
     interpreter exiting while that thread was inside scipy's compiled code aborted the process (exit code
     134, in 2 of 4 tries, instead of one error line and exit code 2)."""
     path = write_suite(folder, "beside-failed", "random-under", repeats=1)
-    monkeypatch.setattr(runner, "open_backend", lambda *args: FailingWorkers())
+    monkeypatch.setattr(driver, "open_backend", lambda *args: FailingWorkers())
     finished = []
 
     def work():

@@ -7,22 +7,21 @@ from pathlib import Path
 import pytest
 
 import lopsided
-from lopsided import learners, resamplers
-from lopsided.datasets import ADAPTERS, bundled, measured
+from lopsided.datasets import ADAPTERS, DATASETS, bundled, measured
 from lopsided.datasets.cache import manifest
+from lopsided.methods import learners, metrics, preprocessing, resamplers
+from lopsided.planning.suite import suite_from_dict
+from lopsided.records import CellTally, DatasetDescription, RunSummary
 from lopsided.report.citations import (
     ENTRIES,
-    LEARNERS,
     LIBRARY,
     MEASURED_SETS,
-    RESAMPLERS,
     SCHEMES,
     SKLEARN_SETS,
     SOFTWARE_TITLE,
     STATISTICS,
     citation_block,
 )
-from lopsided.suite import suite_from_dict
 
 CFF = Path(__file__).resolve().parents[1] / "CITATION.cff"
 
@@ -93,14 +92,18 @@ def test_the_checker_refuses_broken_bibtex():
         parse_bibtex("% fine\nnot fine\n")
 
 
-def test_every_builtin_resampler_and_learner_has_a_citation():
-    """Fails when a method is registered without its paper: add it to RESAMPLERS / LEARNERS."""
-    assert set(RESAMPLERS) == set(resamplers.BUILTIN)
-    assert set(LEARNERS) == set(learners.LEARNERS)
-    for table in (RESAMPLERS, LEARNERS):
-        for name, keys in table.items():
-            assert set(keys) <= set(ENTRIES), name
-            assert keys or name == "none", f"{name} cites nothing"   # the baseline defines no method
+@pytest.mark.parametrize("registry", [resamplers.REGISTRY, learners.REGISTRY, preprocessing.REGISTRY,
+                                      metrics.REGISTRY, DATASETS], ids=lambda r: r.kind)
+def test_every_citation_key_of_a_builtin_is_an_entry(registry):
+    for name, entry in registry.builtins.items():
+        assert set(entry.citations) <= set(ENTRIES), name
+
+
+def test_every_builtin_resampler_and_learner_cites_its_papers():
+    """Fails when a method is registered without its paper: give its Builtin record the citation keys."""
+    for registry in (resamplers.REGISTRY, learners.REGISTRY):
+        for name, entry in registry.builtins.items():
+            assert entry.citations or name == "none", f"{name} cites nothing"   # the baseline defines no method
     assert set(LIBRARY) | set(STATISTICS) <= set(ENTRIES)
 
 
@@ -112,13 +115,21 @@ def test_every_dataset_scheme_and_named_set_has_a_citation():
         assert keys and set(keys) <= set(ENTRIES)
 
 
+def _described(reference, name):
+    """A dataset description with made-up numbers: citations read only the reference and the name."""
+    return DatasetDescription(reference=reference, name=name, n=100, d=4, classes=2, minority="1", minority_count=10,
+                              majority_count=90, imbalance_ratio=9.0, minority_share=0.1, groups=0, nominal=0,
+                              missing=0, duplicates=0, family=None, source="test")
+
+
 def _block(raw):
     suite = suite_from_dict(raw)
-    summary = {"suite": suite.name, "suite_fingerprint": suite.fingerprint,
-               "finished_at": "2026-12-03T09:15:00+00:00", "versions": {"lopsided": lopsided.__version__},
-               "datasets": [{"reference": ref, "name": "mammography" if ref.startswith("openml:") else ref}
-                            for ref in suite.datasets]}
-    return suite, citation_block(suite.as_dict(), summary)
+    summary = RunSummary(suite=suite.name, suite_fingerprint=suite.fingerprint, suite_file="", seed=suite.seed,
+                         versions={"lopsided": lopsided.__version__}, methods=(), cells=CellTally(0, 0, 0, 0),
+                         skipped=(), finished_at="2026-12-03T09:15:00+00:00",
+                         datasets=tuple(_described(ref, "mammography" if ref.startswith("openml:") else ref)
+                                        for ref in suite.datasets))
+    return suite, citation_block(suite, summary)
 
 
 MIXED = {
@@ -218,4 +229,4 @@ def test_citation_cff_is_valid_yaml_with_the_package_version():
     assert {"cff-version", "message", "title", "authors"} <= set(data)
     assert data["version"] == lopsided.__version__
     assert data["license"] == "BSD-3-Clause"
-    assert str(data["date-released"]) == "2026-12-03"
+    assert str(data["date-released"]) == "2026-12-04"

@@ -14,9 +14,12 @@ import pandas as pd
 import pytest
 
 from lopsided import cli
-from lopsided.benchmark import run_suite
 from lopsided.cli import main
-from lopsided.regression import diff, load_folder
+from lopsided.jobs.gate import diff, load_folder
+from lopsided.jobs.run import run_suite
+from lopsided.options import ExecutionOptions, RunOptions
+
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
 
 ROOT = Path(__file__).resolve().parents[1]
 LOPSIDED = Path(sys.executable).with_name("lopsided")
@@ -44,7 +47,7 @@ def board(tmp_path_factory):
     base = tmp_path_factory.mktemp("run")
     suite = base / "screening.toml"
     suite.write_text(SUITE, encoding="utf-8")
-    run_suite(suite, out=base / "board", store=base / "store.sqlite", progress=False)
+    run_suite(suite, RunOptions(out=base / "board", store=base / "store.sqlite", execution=QUIET))
     return base / "board"
 
 

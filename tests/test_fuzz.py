@@ -18,8 +18,8 @@ from lopsided.datasets.cache import no_downloads
 from lopsided.datasets.jcampdx import read_spectrum
 from lopsided.datasets.keelformat import parse_keel
 from lopsided.errors import LopsidedError
+from lopsided.planning.suite import PROTOCOL_KEYS, TOP_KEYS, load_suite, suite_from_dict
 from lopsided.specs import parse_reference
-from lopsided.suite import PROTOCOL_KEYS, TOP_KEYS, load_suite, suite_from_dict
 
 # A fixed seed: every run tries the same examples, so a failure reproduces; set LOPSIDED_FUZZ_EXAMPLES to search further.
 FUZZ = settings(max_examples=int(os.environ.get("LOPSIDED_FUZZ_EXAMPLES", "200")), deadline=None, derandomize=True,

@@ -51,7 +51,7 @@ def test_local_keel_folder_and_zip_with_curation(tmp_path):
     assert data.X.shape == (6, 3) and "Gain" not in data.feature_names   # constant column dropped
     assert data.meta()["duplicates"] == 1 and data.groups is not None
     assert data.groups[3] == data.groups[4] and len(set(data.groups)) == 5  # the two copies share a group
-    assert "duplicate rows kept together" in data.provenance.note
+    assert "1 duplicate row kept together in one fold" in data.provenance.note
     dropped = load_dataset(f"keel:{tmp_path / 'keel-download'}#film-batches?duplicates=drop&constant=keep")
     assert dropped.X.shape == (5, 4) and dropped.groups is None
     archive = tmp_path / "batches.zip"

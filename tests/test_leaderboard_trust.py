@@ -1,6 +1,10 @@
 """A leaderboard that claims no more than its data allow: methods that stay, like-for-like sweeps,
 winners per imbalance band, per-dataset tables, captions and a citation block."""
+import contextlib
+import io
 import json
+import re
+import shutil
 from pathlib import Path
 
 import numpy as np
@@ -10,10 +14,12 @@ import pytest
 from lopsided.analysis import compare
 from lopsided.cli import main
 from lopsided.errors import SuiteError
+from lopsided.execution.store import Store
+from lopsided.options import StatsOptions
+from lopsided.planning.suite import Protocol, load_suite
+from lopsided.report import findings
 from lopsided.report.figures import comparable_datasets, positions, sweep
-from lopsided.report.winners import band_of, winner_rows
-from lopsided.store import Store
-from lopsided.suite import load_suite
+from lopsided.report.winners import band_of, band_specs, winner_rows
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -38,7 +44,7 @@ def test_rank_on_two_agreeing_datasets_claims_nothing_and_reports_one_sixth(tmp_
     assert stats["iman_davenport"]["F"] is None and "identically" in stats["iman_davenport"]["reason"]
     assert stats["decision"]["claims_allowed"] is False
     text = (tmp_path / "r" / "ranking.md").read_text(encoding="utf-8")
-    assert "No significance claim" in text and "rejects" not in text and "inf" not in text.split()
+    assert "No significance claim" in text and "The Friedman test rejects" not in text and "inf" not in text.split()
 
 
 def test_perfect_agreement_on_six_datasets_is_decided_by_the_exact_p_not_by_an_infinite_f():
@@ -51,22 +57,27 @@ def test_perfect_agreement_on_six_datasets_is_decided_by_the_exact_p_not_by_an_i
     json.dumps(result.as_json(), allow_nan=False)
 
 
-@pytest.fixture
-def small_suite(write_suite):
-    return write_suite(ratios='["natural"]')
+@pytest.fixture(scope="module")
+def added(write_module_suite):
+    """One real run of the conftest suite at its natural ratio with two resamplers added on the command line,
+    built once for the module: (suite file, leaderboard folder with its store)."""
+    suite = write_module_suite(ratios='["natural"]')
+    out = suite.parent / "o"
+    with contextlib.redirect_stdout(io.StringIO()):
+        assert main(["run", str(suite), "--out", str(out), "--quiet",
+                     "--add-resampler", "repeat-over", "--add-resampler", "plugins_for_tests:Halves"]) == 0
+    return suite, out
 
 
-def test_an_added_resampler_stays_through_reruns_and_reports_until_dropped(small_suite, tmp_path, capsys):
-    out = tmp_path / "o"
-    assert main(["run", str(small_suite), "--out", str(out), "--quiet",
-                 "--add-resampler", "repeat-over", "--add-resampler", "plugins_for_tests:Halves"]) == 0
-    capsys.readouterr()
+def test_an_added_resampler_stays_through_reruns_and_reports_until_dropped(added, tmp_path, capsys):
+    small_suite, out = added[0], tmp_path / "o"
+    shutil.copytree(added[1], out)                 # a run with --add-resampler repeat-over and Halves
     assert main(["run", str(small_suite), "--out", str(out), "--quiet"]) == 0        # a plain rerun
     assert " 0 computed" in capsys.readouterr().out                                # nothing refitted
     manifest = _strict_json(out / "manifest.json")
-    added = [m for m in manifest["methods"] if m["origin"] == "added"]
-    assert [m["label"] for m in added] == ["repeat-over", "plugins_for_tests:Halves"]
-    assert all("--add-resampler repeat-over" in m["command"] for m in added)
+    recorded = [m for m in manifest["methods"] if m["origin"] == "added"]
+    assert [m["label"] for m in recorded] == ["repeat-over", "plugins_for_tests:Halves"]
+    assert all("--add-resampler repeat-over" in m["command"] for m in recorded)
     board = (out / "leaderboard.md").read_text(encoding="utf-8")
     assert "plugins_for_tests:Halves" in board and "--add-resampler" in board
     assert main(["report", str(small_suite), "--out", str(out)]) == 0             # rebuilt: still there
@@ -86,27 +97,41 @@ def test_an_added_resampler_stays_through_reruns_and_reports_until_dropped(small
     assert "unknown added resampler 'repeat-ovr'" in capsys.readouterr().err       # repeat-over is dropped already
 
 
-def test_the_leaderboard_has_winners_per_band_a_per_dataset_table_captions_and_citations(small_suite, tmp_path):
-    out = tmp_path / "o"
-    assert main(["run", str(small_suite), "--out", str(out), "--quiet"]) == 0
+def test_the_leaderboard_has_winners_per_band_a_per_dataset_table_captions_and_citations(added):
+    out = added[1]
     board = (out / "leaderboard.md").read_text(encoding="utf-8")
-    for needle in ("## Who wins where", "## Per-dataset balanced_accuracy with logistic-regression",
-                   "Ranked by balanced_accuracy average rank", "_Critical-difference diagram of",
-                   "## How to cite", "@misc{run-tiny-", "chawla2002" if "smote" in board else "demsar2006",
-                   "control for Bonferroni-Dunn: none"):
+    for needle in ("## The answer, per learner", "## Who leads where", "## Per-dataset balanced accuracy with "
+                   "logistic-regression", "_Average ranks of", "## How to cite", "@misc{run-tiny-", "demsar2006",
+                   "against the control none"):
         assert needle in board, needle
-    assert (out / "citation.bib").read_text(encoding="utf-8").count("@") >= 5
+    # summary.md: its own title, the leaderboard's answer section word for word, a pointer to the full report
+    title, rest = (out / "summary.md").read_text(encoding="utf-8").split("\n", 1)
+    answer, pointer = rest.rsplit("The full report: ", 1)
+    assert title == "# tiny: summary" and pointer.startswith("`index.html` (the site, offline) and `leaderboard.md`")
+    assert answer.lstrip().startswith("> **Caution.**") and "## The answer, per learner" in answer
+    assert answer.strip() in board
+    # the papers behind this suite's methods, datasets and statistics; nothing for a method it does not run
+    keys = set(re.findall(r"^@\w+\{([^,]+),", (out / "citation.bib").read_text(encoding="utf-8"), re.MULTILINE))
+    assert {"japkowicz2000",                      # random under-sampling (Japkowicz 2000)
+            "batista2004",                        # top-up over-sampling (Batista et al. 2004)
+            "cox1958", "breiman2001",             # logistic regression, random forests
+            "aeberhard1991", "fisher1936",        # the wine and iris data
+            "friedman1937", "nemenyi1963", "wilcoxon1945", "holm1979", "demsar2006"} <= keys
+    assert "chawla2002" not in keys and "chawla2002" not in board          # no SMOTE in this suite
     stats = _strict_json(out / "stats.json")
     views = {(c["metric"], c["view"], c["learner"]) for c in stats["comparisons"]}
     assert ("balanced_accuracy", "all", None) in views
-    assert "&amp;" in (out / "index.html").read_text(encoding="utf-8")      # references with & are escaped
+    assert "&amp;" in (out / "cite.html").read_text(encoding="utf-8")       # references with & are escaped
     _strict_json(out / "manifest.json")
 
 
-def test_control_none_turns_the_bonferroni_dunn_test_off(write_suite, tmp_path):
-    suite = load_suite(write_suite(extra='control = "none"', ratios='["natural"]'))
-    assert suite.control_label is None
+def test_control_false_turns_the_tests_against_a_control_off_and_none_is_the_resampler(write_suite, tmp_path):
+    suite = load_suite(write_suite(extra='control = false', ratios='["natural"]'))
+    assert suite.control_label is None and suite.as_dict()["control"] is False
+    assert load_suite(write_suite(extra='control = "none"', ratios='["natural"]')).control_label == "none"
     assert load_suite(write_suite(extra='control = "topup-over"', ratios='["natural"]')).control_label == "topup-over"
+    with pytest.raises(SuiteError, match="control: unknown resampler 'off'.*write control = false"):
+        load_suite(write_suite(extra='control = "off"', ratios='["natural"]'))
     with pytest.raises(SuiteError, match="control: unknown resampler 'topup-ovr' .did you mean 'topup-over'"):
         load_suite(write_suite(extra='control = "topup-ovr"', ratios='["natural"]'))
 
@@ -142,13 +167,20 @@ def test_winner_rows_split_the_natural_point_by_imbalance_band():
     ratios = {f"d{i}": r for i, r in enumerate([1.5, 2, 2.5, 4, 5, 6, 7, 8, 10, 20, 40, 60, 80, 2.2, 5.5])}
     values = {(d, "natural"): {"best": 0.9 + rng.normal(0, 0.01), "mid": 0.7 + rng.normal(0, 0.01),
                                "low": 0.5 + rng.normal(0, 0.01)} for d in ratios}
-    suite = {"protocol": {"ratios": ["natural"], "sizes": ["all"]}, "metrics": ["balanced_accuracy"]}
-    rows = winner_rows(_scores(values), suite, ratios)
-    by_band = {r["band"]: r for r in rows}
-    assert by_band["IR < 3"]["n"] == 4 and by_band["3 <= IR < 9"]["n"] == 6 and by_band["IR >= 9"]["n"] == 5
-    assert all(r["best"] == "best + lr" for r in rows)
-    assert by_band["3 <= IR < 9"]["p"] < 0.05 and "ranks first" in by_band["3 <= IR < 9"]["claim"]
-    assert "no claim: only 4 datasets" in by_band["IR < 3"]["claim"] and by_band["IR < 3"]["tied"] == []   # four datasets: no claim
+    scores = _scores(values)
+    primary = findings.PrimaryChoice("balanced_accuracy", "natural", "all", 15, 15, False)
+    protocol = Protocol(ratios=("natural",), sizes=("all",))
+    studies = [findings.Study(spec, *findings.compute(spec, findings.matrix_of(spec, scores, None, ratios), None,
+                                                       StatsOptions(), None))
+               for spec in band_specs(protocol, scores, primary)]
+    findings.with_decisions(studies, 0.05)
+    rows = winner_rows(studies, protocol, primary)
+    by_band = {r["band"]: r["study"] for r in rows}
+    assert [len(by_band[b].result.datasets) for b in ("IR < 3", "3 <= IR < 9", "IR >= 9")] == [4, 6, 5]
+    assert all(s.result.leaders == ["best + lr"] for s in by_band.values())
+    assert by_band["3 <= IR < 9"].decision.rejects                       # 6 datasets, the same order on each
+    assert not by_band["IR < 3"].result.claims_allowed                    # four datasets: no claim
+    assert by_band["IR < 3"].decision.run_tests == 2                      # the two bands that can claim share a family
 
 
 CELL_COLUMNS = {"dataset", "ratio", "size", "repeat", "fold", "resampler", "learner", "status", "error", "warning",
@@ -162,9 +194,13 @@ def test_committed_leaderboards_come_from_real_runs(folder):
     assert manifest["seconds"] > 0 and manifest["jobs"] >= 1 and manifest["command"].startswith("lopsided run ")
     assert manifest["started_at"] < manifest["finished_at"]
     assert {"chemotools", "openml", "numpy", "scikit-learn"} <= set(manifest["versions"])
-    header = set(pd.read_csv(board / "cells.csv", nrows=0).columns)
+    cells = board / ("cells.csv" if (board / "cells.csv").exists() else "cells.csv.gz")
+    header = set(pd.read_csv(cells, nrows=0).columns)
     assert CELL_COLUMNS | set(load_suite(ROOT / "bench" / f"{folder}.toml").metrics) <= header
     _strict_json(board / "stats.json")
     text = (board / "leaderboard.md").read_text(encoding="utf-8")
-    for needle in ("## Who wins where", "## Per-dataset", "## How to cite", "```bibtex", "research evidence"):
+    for needle in ("## The answer, per learner", "## Per-dataset", "## How to cite", "```bibtex", "research evidence"):
         assert needle in text, needle
+    assert len((board / "summary.md").read_text(encoding="utf-8")) < 20_000     # fits a pull-request description
+    heavy = {page.name: page.stat().st_size for page in board.glob("*.html") if page.stat().st_size >= 400_000}
+    assert not heavy, f"pages over 400 kB of HTML: {heavy}"

@@ -11,7 +11,7 @@ from sklearn.ensemble import AdaBoostClassifier, RandomForestClassifier
 from sklearn.tree import DecisionTreeClassifier
 
 from lopsided.errors import MethodError
-from lopsided.metrics import class_scores, predictions_and_scores, score_cell
+from lopsided.methods.metrics import class_scores, predictions_and_scores, score_cell
 
 
 @pytest.fixture

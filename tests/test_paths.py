@@ -4,8 +4,11 @@ import os
 import numpy as np
 import pandas as pd
 
-from lopsided.benchmark import run_suite
 from lopsided.cli import main
+from lopsided.jobs.run import run_suite
+from lopsided.options import ExecutionOptions, RunOptions
+
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
 
 
 def test_a_suite_finds_its_files_and_store_from_any_current_folder(tmp_path, monkeypatch):
@@ -30,7 +33,7 @@ folds = 2
     elsewhere = tmp_path / "elsewhere"
     elsewhere.mkdir()
     monkeypatch.chdir(elsewhere)
-    result = run_suite(project / "suite.toml", progress=False)
+    result = run_suite(project / "suite.toml", RunOptions(execution=QUIET))
     assert result.store == project / "runs" / "store.sqlite" and result.store.is_file()
     assert result.out == project / "board" and (project / "board" / "leaderboard.md").is_file()
     assert os.listdir(elsewhere) == []                       # nothing written where the command ran

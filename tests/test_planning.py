@@ -5,12 +5,12 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from lopsided.benchmark import load_all
+from lopsided.execution.store import Store
+from lopsided.jobs.run import load_all
+from lopsided.planning.plan import pending, plan
+from lopsided.planning.suite import load_suite
 from lopsided.records import CellRow, Coordinates, Point
-from lopsided.runner import pending, plan
 from lopsided.specs import MethodSpec
-from lopsided.store import Store
-from lopsided.suite import load_suite
 
 
 @pytest.fixture
@@ -90,9 +90,9 @@ def test_the_store_columns_are_the_fields_of_a_cell_row(tmp_path):
 
 
 def test_coordinates_leave_default_options_out_of_the_key_payload():
-    where = Coordinates("sklearn:wine", "abc", 7, 5, Point(2.0, "all"), 0, 1, ("snv",), "smote")
+    where = Coordinates("sklearn:wine", "data abc", "abc", 7, 5, Point(2.0, "all"), 0, 1, ("snv",), "smote")
     assert where.payload() == {"dataset": "sklearn:wine", "ratio": "2", "size": "all", "repeat": 0, "fold": 1,
-                               "dataset_checksum": "abc", "folds": 5, "suite_seed": 7, "preprocessing": ["snv"],
+                               "dataset_identity": "data abc", "folds": 5, "suite_seed": 7, "preprocessing": ["snv"],
                                "resampler": "smote"}
     leaky = replace(where, split="random", holdout=0.25)
     assert leaky.payload() == {**where.payload(), "split": "random", "holdout": 0.25}

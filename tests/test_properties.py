@@ -3,8 +3,8 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from lopsided.protocol import Infeasible, point_counts
-from lopsided.resamplers import make_resampler
+from lopsided.methods.resamplers import make_resampler
+from lopsided.planning.protocol import Infeasible, point_counts
 from lopsided.specs import parse_method
 
 counts_strategy = st.lists(st.integers(min_value=1, max_value=400), min_size=2, max_size=5)
@@ -39,7 +39,7 @@ def test_resampled_sets_keep_features_labels_and_every_class(n_minor, n_major, n
     X = rng.normal(size=(n_minor + n_major, 3))
     y = np.r_[np.ones(n_minor, int), np.zeros(n_major, int)]
     X[y == 1] += 1.0
-    Xr, yr = make_resampler(parse_method(name), seed).fit_resample(X, y)
+    Xr, yr = make_resampler(parse_method(name), seed).rebalance(X, y)
     assert Xr.shape[1] == 3 and len(Xr) == len(yr) and np.isfinite(Xr).all()
     assert set(yr) == {0, 1}
     if name in ("repeat-over", "bootstrap-over", "topup-over", "smote", "adasyn"):

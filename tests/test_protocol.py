@@ -3,9 +3,9 @@ import numpy as np
 import pytest
 
 from lopsided.datasets import load_dataset
-from lopsided.protocol import Infeasible, class_orders, fold_splits, point_counts, point_rows
-from lopsided.runner import plan
-from lopsided.suite import load_suite
+from lopsided.planning.plan import plan
+from lopsided.planning.protocol import Infeasible, class_orders, fold_splits, point_counts, point_rows
+from lopsided.planning.suite import load_suite
 
 
 def counts_of(y, rows):

@@ -22,10 +22,12 @@ pytest.importorskip("imblearn", reason="imbalanced-learn is the reference for th
 from imblearn import over_sampling as ref_over  # noqa: E402
 from imblearn import under_sampling as ref_under  # noqa: E402
 
-from lopsided.resamplers.cleaning import NeighbourEditing, TomekCleaning  # noqa: E402
-from lopsided.resamplers.nearmiss import NearMissUnder  # noqa: E402
-from lopsided.resamplers.random import RandomUnder  # noqa: E402
-from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote, danger_set  # noqa: E402
+from lopsided.methods.resamplers.cleaning import NeighbourEditing, TomekCleaning  # noqa: E402
+from lopsided.methods.resamplers.nearmiss import NearMissUnder  # noqa: E402
+from lopsided.methods.resamplers.random import RandomUnder  # noqa: E402
+from lopsided.methods.resamplers.smote import Adasyn, BorderlineSmote, Smote, danger_set  # noqa: E402
+
+RAW = "as-given"   # the reference searches neighbours on the columns as given; lopsided standardises by default
 
 DATASETS = {              # name: (class sizes, seed, distance between neighbouring class means)
     "2 classes 150:30": ((150, 30), 0, 1.0),
@@ -112,7 +114,7 @@ def seed_counts(X, y, X_out, y_out, label):
 @pytest.fixture
 def echo_seeds(monkeypatch):
     """lopsided with its interpolation step replaced by 'return the seed', the counterpart of ItselfAsNeighbour."""
-    monkeypatch.setattr("lopsided.resamplers.smote.interpolate", lambda base, towards, gaps: base.copy())
+    monkeypatch.setattr("lopsided.methods.resamplers.smote.interpolate", lambda base, towards, gaps: base.copy())
 
 
 # ---- Tomek links --------------------------------------------------------------------------------
@@ -125,14 +127,28 @@ def test_tomek_links_remove_the_same_rows(name):
     X, y = blobs(name)
     reference = ref_under.TomekLinks(sampling_strategy="all")
     reference.fit_resample(X, y)
-    both = removed(X, TomekCleaning(remove="both").fit_resample(X, y)[0])
+    both = removed(X, TomekCleaning(distances=RAW, remove="both").rebalance(X, y)[0])
     assert both and both == set(range(len(X))) - set(reference.sample_indices_)
     if len(DATASETS[name][0]) == 2:
         reference = ref_under.TomekLinks()
         reference.fit_resample(X, y)
-        larger = removed(X, TomekCleaning().fit_resample(X, y)[0])
+        larger = removed(X, TomekCleaning(distances=RAW).rebalance(X, y)[0])
         assert larger == set(range(len(X))) - set(reference.sample_indices_)
         assert (y[list(larger)] == 0).all()
+
+
+@pytest.mark.parametrize("name", TWO_CLASSES)
+def test_standardised_tomek_links_and_enn_equal_the_reference_on_columns_standardised_by_hand(name):
+    """lopsided's default searches z-scored columns: the same rows go as when the reference is given the
+    columns standardised by hand, after one column is put into units 1,000 times larger."""
+    X, y = blobs(name)
+    X = X * np.array([1.0, 1000.0, 1.0])
+    z = (X - X.mean(axis=0)) / X.std(axis=0)
+    for ours, theirs in ((TomekCleaning(), ref_under.TomekLinks()),
+                         (NeighbourEditing(neighbours=3), ref_under.EditedNearestNeighbours(n_neighbors=3, kind_sel="mode",
+                                                                                            sampling_strategy=[0]))):
+        theirs.fit_resample(z, y)
+        assert removed(X, ours.rebalance(X, y)[0]) == set(range(len(X))) - set(theirs.sample_indices_)
 
 
 def test_tomek_links_with_three_classes_drop_only_the_larger_member():
@@ -147,7 +163,7 @@ def test_tomek_links_with_three_classes_drop_only_the_larger_member():
         min((i, j), key=lambda r: counts[y[r]]) for i, j in links if 2 not in (y[i], y[j])}
     reference = ref_under.TomekLinks()
     reference.fit_resample(X, y)
-    ours = removed(X, TomekCleaning().fit_resample(X, y)[0])
+    ours = removed(X, TomekCleaning(distances=RAW).rebalance(X, y)[0])
     theirs = set(range(len(X))) - set(reference.sample_indices_)
     assert smaller_member_between_larger_classes
     assert theirs - ours == smaller_member_between_larger_classes and ours <= theirs
@@ -162,7 +178,7 @@ def test_duplicate_rows_with_opposite_labels_are_tomek_links_only_in_lopsided():
     copies = [151, 160, 172]                                   # minority rows repeated with label 0
     X, y = np.r_[X, X[copies]], np.r_[y, np.zeros(3, int)]
     duplicates = set(copies) | {180, 181, 182}
-    ours = removed(X, TomekCleaning(remove="both").fit_resample(X, y)[0])
+    ours = removed(X, TomekCleaning(distances=RAW, remove="both").rebalance(X, y)[0])
     reference = ref_under.TomekLinks(sampling_strategy="all")
     reference.fit_resample(X, y)
     theirs = set(range(len(X))) - set(reference.sample_indices_)
@@ -179,15 +195,15 @@ def test_enn_keeps_the_same_rows_with_two_classes(name):
     removes a row on any disagreeing neighbour). Edited classes: the largest (lopsided's default,
     passed to the reference as a list) or all."""
     X, y = blobs(name)
-    for ours, classes in ((NeighbourEditing(neighbours=3), [0]),
-                          (NeighbourEditing(neighbours=3, classes="all"), "all")):
+    for ours, classes in ((NeighbourEditing(distances=RAW, neighbours=3), [0]),
+                          (NeighbourEditing(distances=RAW, neighbours=3, classes="all"), "all")):
         reference = ref_under.EditedNearestNeighbours(n_neighbors=3, kind_sel="mode", sampling_strategy=classes)
         reference.fit_resample(X, y)
-        gone = removed(X, ours.fit_resample(X, y)[0])
+        gone = removed(X, ours.rebalance(X, y)[0])
         assert gone and gone == set(range(len(X))) - set(reference.sample_indices_)
     strict = ref_under.EditedNearestNeighbours(n_neighbors=3, kind_sel="all", sampling_strategy=[0])
     strict.fit_resample(X, y)
-    assert len(X) - len(strict.sample_indices_) > len(removed(X, NeighbourEditing().fit_resample(X, y)[0]))
+    assert len(X) - len(strict.sample_indices_) > len(removed(X, NeighbourEditing(distances=RAW).rebalance(X, y)[0]))
 
 
 @pytest.mark.parametrize("name, k, lopsided_removes", [("3 classes 120:60:25", 3, True),
@@ -207,7 +223,7 @@ def test_enn_vote_differs_with_three_classes_and_even_ties(name, k, lopsided_rem
     predicted = set(np.flatnonzero(lopsided_keeps != mode_keeps).tolist())
     reference = ref_under.EditedNearestNeighbours(n_neighbors=k, kind_sel="mode", sampling_strategy="all")
     reference.fit_resample(X, y)
-    ours = removed(X, NeighbourEditing(neighbours=k, classes="all").fit_resample(X, y)[0])
+    ours = removed(X, NeighbourEditing(distances=RAW, neighbours=k, classes="all").rebalance(X, y)[0])
     theirs = set(range(len(X))) - set(reference.sample_indices_)
     assert predicted and ours ^ theirs == predicted
     assert (predicted <= ours) if lopsided_removes else (predicted <= theirs)
@@ -223,7 +239,7 @@ def test_nearmiss_keeps_the_same_rows(name, version):
     X, y = blobs(name)
     reference = ref_under.NearMiss(version=version, n_neighbors=3, n_neighbors_ver3=3)
     quiet(reference, X, y)
-    ours = row_indices(X, NearMissUnder(rule=version, neighbours=3, keep_neighbours=3).fit_resample(X, y)[0])
+    ours = row_indices(X, NearMissUnder(distances=RAW, rule=version, neighbours=3, keep_neighbours=3).rebalance(X, y)[0])
     assert set(ours.tolist()) == set(reference.sample_indices_.tolist())
 
 
@@ -244,7 +260,7 @@ def test_nearmiss_breaks_exact_ties_by_row_order_like_the_reference(version):
     X, y = mirrored_pairs()
     reference = ref_under.NearMiss(version=version)
     quiet(reference, X, y)
-    ours = set(row_indices(X, NearMissUnder(rule=version).fit_resample(X, y)[0]).tolist())
+    ours = set(row_indices(X, NearMissUnder(distances=RAW, rule=version).rebalance(X, y)[0]).tolist())
     assert ours == set(reference.sample_indices_.tolist())
     assert any((2 * p in ours) != (2 * p + 1 in ours) for p in range(6))
 
@@ -256,7 +272,7 @@ def test_smote_points_lie_on_neighbour_segments_with_the_same_counts(name):
     """Chawla et al. (2002), section 4.2: x_new = x + u (x_nn - x), x_nn among the k = 5 nearest
     same-class rows. Both raise every class to the largest class's size."""
     X, y = blobs(name)
-    for X_out, y_out in (Smote(neighbours=5, random_state=0).fit_resample(X, y),
+    for X_out, y_out in (Smote(distances=RAW, neighbours=5, random_state=0).rebalance(X, y),
                          ref_over.SMOTE(k_neighbors=5, random_state=0).fit_resample(X, y)):
         assert np.bincount(y_out).tolist() == [len(X[y == 0])] * len(np.unique(y))
         np.testing.assert_array_equal(X_out[:len(X)], X)
@@ -270,7 +286,7 @@ def test_smote_spreads_seeds_evenly_where_the_reference_draws_them(echo_seeds):
     (Chawla et al. 2002, section 4.2, N% per sample); the reference draws each new point's seed at
     random, so its per-seed counts vary. Seeds made visible in both (ItselfAsNeighbour, echo_seeds)."""
     X, y = blobs("2 classes 150:30")
-    ours = seed_counts(X, y, *Smote(random_state=0).fit_resample(X, y), 1)
+    ours = seed_counts(X, y, *Smote(distances=RAW, random_state=0).rebalance(X, y), 1)
     theirs = seed_counts(X, y, *ref_over.SMOTE(k_neighbors=ItselfAsNeighbour(n_neighbors=6),
                                                random_state=0).fit_resample(X, y), 1)
     assert ours.sum() == theirs.sum() == 120
@@ -318,7 +334,7 @@ def test_borderline_smote_2_gap_towards_other_classes():
     a U(0, 0.5) factor by its usual U(0, 1) step, a product with mean 0.125 (common practice: compare
     the sample means; about 20 points each here)."""
     X, y = blobs("2 classes 90:60 overlapping")
-    ours = cross_class_gaps(X, y, *BorderlineSmote(variant=2, random_state=0).fit_resample(X, y))
+    ours = cross_class_gaps(X, y, *BorderlineSmote(distances=RAW, variant=2, random_state=0).rebalance(X, y))
     reference = ref_over.BorderlineSMOTE(kind="borderline-2", random_state=0)
     theirs = cross_class_gaps(X, y, *reference.fit_resample(X, y))
     assert len(ours) > 10 and len(theirs) > 10
@@ -331,7 +347,7 @@ def test_borderline_smote_with_no_danger_rows_generates_nothing_in_both():
     rng = np.random.default_rng(7)
     X = np.r_[rng.normal(size=(80, 3)), rng.normal(20.0, 1.0, size=(20, 3))]
     y = np.r_[np.zeros(80, int), np.ones(20, int)]
-    for X_out, _ in (BorderlineSmote(random_state=0).fit_resample(X, y),
+    for X_out, _ in (BorderlineSmote(distances=RAW, random_state=0).rebalance(X, y),
                      ref_over.BorderlineSMOTE(random_state=0).fit_resample(X, y)):
         np.testing.assert_array_equal(X_out, X)
 
@@ -347,7 +363,7 @@ def test_adasyn_per_sample_counts_differ_only_by_rounding(name, echo_seeds):
     nearest whole number, so its total can miss G. Where its total does equal G, both roundings pick
     the same rows and the counts agree exactly."""
     X, y = blobs(name)
-    ours_out = Adasyn(neighbours=5, random_state=0).fit_resample(X, y)
+    ours_out = Adasyn(distances=RAW, neighbours=5, random_state=0).rebalance(X, y)
     reference = ref_over.ADASYN(n_neighbors=ItselfAsNeighbour(n_neighbors=6), random_state=0)
     theirs_out = reference.fit_resample(X, y)
     for label in np.unique(y)[1:]:
@@ -386,7 +402,7 @@ def test_four_minority_rows_fall_back_to_three_neighbours_where_the_reference_re
     rng = np.random.default_rng(0)
     X = np.r_[rng.normal(size=(60, 3)), rng.normal(0.5, 1.0, size=(4, 3))]
     y = np.r_[np.zeros(60, int), np.ones(4, int)]
-    assert np.bincount(ours(random_state=0).fit_resample(X, y)[1]).tolist() == [60, 60]
+    assert np.bincount(ours(random_state=0, distances=RAW).rebalance(X, y)[1]).tolist() == [60, 60]
     with pytest.raises(ValueError, match="n_neighbors"):
         theirs(random_state=0).fit_resample(X, y)
 
@@ -398,12 +414,12 @@ def test_nearmiss_with_two_minority_rows_and_adasyn_without_other_classes_nearby
     rng = np.random.default_rng(0)
     X = np.r_[rng.normal(size=(60, 3)), rng.normal(0.5, 1.0, size=(2, 3))]
     y = np.r_[np.zeros(60, int), np.ones(2, int)]
-    assert np.bincount(NearMissUnder(rule=1).fit_resample(X, y)[1]).tolist() == [2, 2]
+    assert np.bincount(NearMissUnder(distances=RAW, rule=1).rebalance(X, y)[1]).tolist() == [2, 2]
     with pytest.raises(ValueError, match="n_neighbors"):
         ref_under.NearMiss(version=1).fit_resample(X, y)
     X = np.r_[rng.normal(size=(60, 3)), rng.normal(20.0, 1.0, size=(20, 3))]
     y = np.r_[np.zeros(60, int), np.ones(20, int)]
-    assert np.bincount(Adasyn(random_state=0).fit_resample(X, y)[1]).tolist() == [60, 60]
+    assert np.bincount(Adasyn(distances=RAW, random_state=0).rebalance(X, y)[1]).tolist() == [60, 60]
     with pytest.raises(RuntimeError):
         ref_over.ADASYN().fit_resample(X, y)
 
@@ -414,15 +430,15 @@ def test_balance_rounds_to_the_nearest_count_and_covers_more_classes():
     nearest whole number, the reference truncates; lopsided also applies it to any number of classes
     (relative to the largest or smallest class), where the reference accepts a float for two only."""
     X, y = blobs("2 classes 150:30")
-    assert np.bincount(Smote(balance=0.713, random_state=0).fit_resample(X, y)[1]).tolist() == [150, 107]
+    assert np.bincount(Smote(distances=RAW, balance=0.713, random_state=0).rebalance(X, y)[1]).tolist() == [150, 107]
     reference = ref_over.SMOTE(sampling_strategy=0.713, random_state=0)        # 0.713 * 150 = 106.95
     assert np.bincount(reference.fit_resample(X, y)[1]).tolist() == [150, 106]
-    for ours, theirs in ((NearMissUnder(balance=0.7), ref_under.NearMiss(sampling_strategy=0.7)),
+    for ours, theirs in ((NearMissUnder(distances=RAW, balance=0.7), ref_under.NearMiss(sampling_strategy=0.7)),
                          (RandomUnder(balance=0.7, random_state=0),
                           ref_under.RandomUnderSampler(sampling_strategy=0.7, random_state=0))):
-        assert np.bincount(ours.fit_resample(X, y)[1]).tolist() == [43, 30]      # 30 / 0.7 = 42.86
+        assert np.bincount(ours.rebalance(X, y)[1]).tolist() == [43, 30]      # 30 / 0.7 = 42.86
         assert np.bincount(theirs.fit_resample(X, y)[1]).tolist() == [42, 30]
     X, y = blobs("3 classes 120:60:25")
-    assert np.bincount(Smote(balance=0.5, random_state=0).fit_resample(X, y)[1]).tolist() == [120, 60, 60]
+    assert np.bincount(Smote(distances=RAW, balance=0.5, random_state=0).rebalance(X, y)[1]).tolist() == [120, 60, 60]
     with pytest.raises(ValueError, match="binary"):
         ref_over.SMOTE(sampling_strategy=0.5).fit_resample(X, y)

@@ -7,14 +7,19 @@ import numpy as np
 import pytest
 from scipy.spatial.distance import cdist
 
-from lopsided.resamplers import BUILTIN, make_resampler, resolve
-from lopsided.resamplers.base import ResamplingError, check_xy
-from lopsided.resamplers.cleaning import NeighbourEditing, OneSidedSelection, TomekCleaning, tomek_links
-from lopsided.resamplers.clusters import KMeansCentres
-from lopsided.resamplers.nearmiss import NearMissUnder
-from lopsided.resamplers.neighbours import apportion
-from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote, SmoteNominal
+from lopsided.methods.resamplers import BUILTIN, make_resampler, resolve
+from lopsided.methods.resamplers.base import ResamplingError, check_xy
+from lopsided.methods.resamplers.cleaning import NeighbourEditing, OneSided, TomekCleaning, tomek_links
+from lopsided.methods.resamplers.clusters import KMeansCentres
+from lopsided.methods.resamplers.nearmiss import NearMissUnder
+from lopsided.methods.resamplers.neighbours import apportion
+from lopsided.methods.resamplers.smote import Adasyn, BorderlineSmote, Smote, SmoteNominal
+from lopsided.options import ExecutionOptions, RunOptions
 from lopsided.specs import parse_method
+
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
+
+RAW = "as-given"   # brute-force checks on the columns as given; lopsided standardises by default
 
 
 def two_classes(n_major=150, n_minor=30, d=3, seed=0, shift=1.2):
@@ -46,7 +51,7 @@ def test_smote_points_lie_on_neighbour_segments_and_count_is_exact():
     """Chawla et al. (2002), section 4.2: x_new = x + u * (x_nn - x), u ~ U(0, 1), x_nn among the k
     nearest minority neighbours of x."""
     X, y = two_classes()
-    Xr, yr = Smote(neighbours=5, random_state=3).fit_resample(X, y)
+    Xr, yr = Smote(distances=RAW, neighbours=5, random_state=3).rebalance(X, y)
     assert np.bincount(yr).tolist() == [150, 150]
     np.testing.assert_array_equal(Xr[:180], X)
     minority = X[y == 1]
@@ -65,7 +70,7 @@ def danger_brute(X, y, m):
 def test_borderline_smote_seeds_only_from_the_danger_set(variant):
     """Han et al. (2005), section 3.1: danger = m/2 <= m' < m majority among the m nearest neighbours."""
     X, y = two_classes(shift=0.8, seed=2)
-    Xr, yr = BorderlineSmote(variant=variant, neighbours=5, danger_neighbours=10, random_state=1).fit_resample(X, y)
+    Xr, yr = BorderlineSmote(distances=RAW, variant=variant, neighbours=5, danger_neighbours=10, random_state=1).rebalance(X, y)
     assert np.bincount(yr).tolist() == [150, 150]
     minority = X[y == 1]
     danger = np.flatnonzero(danger_brute(X, y, 10))
@@ -84,7 +89,7 @@ def test_adasyn_counts_follow_the_normalised_majority_ratios():
     """He et al. (2008), steps (b)-(d): r_i = Delta_i / K, g_i = r_i / sum(r) * G."""
     X, y = two_classes(shift=1.0, seed=4)
     G = 150 - 30
-    Xr, yr = Adasyn(neighbours=5, random_state=2).fit_resample(X, y)
+    Xr, yr = Adasyn(distances=RAW, neighbours=5, random_state=2).rebalance(X, y)
     minority = X[y == 1]
     near = knn_brute(minority, X, 6)[:, 1:]
     ratio = (y[near] == 0).sum(axis=1) / 5
@@ -103,7 +108,7 @@ def test_smote_nc_distance_and_nominal_vote():
     rng = np.random.default_rng(7)
     X, y = two_classes(seed=7)
     X[:, 2] = rng.integers(0, 3, len(X))
-    Xr, yr = SmoteNominal(nominal=[2], neighbours=4, random_state=5).fit_resample(X, y)
+    Xr, yr = SmoteNominal(distances=RAW, nominal=[2], neighbours=4, random_state=5).rebalance(X, y)
     minority = X[y == 1]
     med = np.median(minority[:, :2].std(axis=0))
     D = cdist(minority[:, :2], minority[:, :2], "sqeuclidean") + med ** 2 * (minority[:, 2][:, None] != minority[:, 2][None, :])
@@ -126,10 +131,10 @@ def test_tomek_links_are_exactly_the_mutual_nearest_opposite_pairs():
     nearest = knn_brute(X, X, 1, same=True)[:, 0]
     brute = {(i, j) for i, j in enumerate(nearest) if nearest[j] == i and y[i] != y[j] and i < j}
     assert brute and {tuple(p) for p in tomek_links(X, y)} == brute
-    Xr, yr = TomekCleaning().fit_resample(X, y)
+    Xr, yr = TomekCleaning(distances=RAW).rebalance(X, y)
     removed = {i for i, j in brute for k in (i, j) if y[k] == 0 and k == (i if y[i] == 0 else j)}
     assert len(Xr) == len(X) - len(removed) and (yr == 1).sum() == 30
-    Xb, _ = TomekCleaning(remove="both").fit_resample(X, y)
+    Xb, _ = TomekCleaning(distances=RAW, remove="both").rebalance(X, y)
     assert len(Xb) == len(X) - 2 * len(brute)
 
 
@@ -138,10 +143,10 @@ def test_enn_removes_exactly_the_majority_samples_its_neighbours_outvote():
     X, y = two_classes(shift=0.8, seed=6)
     near = knn_brute(X, X, 3, same=True)
     outvoted = ((y[near] != y[:, None]).sum(axis=1) > 1.5) & (y == 0)
-    Xr, _ = NeighbourEditing(neighbours=3).fit_resample(X, y)
+    Xr, _ = NeighbourEditing(distances=RAW, neighbours=3).rebalance(X, y)
     np.testing.assert_array_equal(Xr, X[~outvoted])
     everyone = (y[near] != y[:, None]).sum(axis=1) > 1.5
-    Xa, _ = NeighbourEditing(neighbours=3, classes="all").fit_resample(X, y)
+    Xa, _ = NeighbourEditing(distances=RAW, neighbours=3, classes="all").rebalance(X, y)
     np.testing.assert_array_equal(Xa, X[~everyone])
 
 
@@ -187,7 +192,7 @@ def test_enn_counts_an_identical_row_of_another_class_as_a_neighbour(sizes, k, c
     candidates = np.ones(len(y), bool) if classes == "all" else y == 0
     surely, maybe = candidates & (fewest > k / 2), candidates & (most > k / 2)
     assert (surely != maybe).sum() <= len(y) // 20          # nearly every row is decided
-    Xr, yr = NeighbourEditing(neighbours=k, classes=classes).fit_resample(X, y)
+    Xr, yr = NeighbourEditing(distances=RAW, neighbours=k, classes=classes).rebalance(X, y)
     gone = removed_rows(X, y, Xr, yr)
     assert set(np.flatnonzero(surely)) <= gone <= set(np.flatnonzero(maybe))
     if k == 1:
@@ -235,7 +240,7 @@ def test_nearmiss_picks_per_its_distance_rule(version):
         short = np.unique(np.argsort(D.T, axis=1, kind="stable")[:, :3])
         score = np.sort(D[short], axis=1)[:, :3].mean(axis=1)
         chosen = major[short[np.argsort(-score, kind="stable")[:30]]]
-    Xr, yr = NearMissUnder(rule=version).fit_resample(X, y)
+    Xr, yr = NearMissUnder(distances=RAW, rule=version).rebalance(X, y)
     assert {tuple(r) for r in Xr[yr == 0]} == {tuple(r) for r in X[np.sort(chosen)]}
     assert (yr == 1).sum() == 30
 
@@ -253,13 +258,13 @@ def test_one_sided_selection_follows_kubat_and_matwin():
     linked = {int(c) for c, n in zip(C, nearest) if y[c] == 0 and y[n] == 1
               and nearest[np.flatnonzero(C == n)[0]] == c}
     expected = np.setdiff1d(C, list(linked))
-    Xr, yr = OneSidedSelection(random_state=4).fit_resample(X, y)
+    Xr, yr = OneSided(distances=RAW, random_state=4).rebalance(X, y)
     np.testing.assert_array_equal(Xr, X[expected])
 
 
 def test_cluster_centres_replace_the_majority():
     X, y = two_classes(seed=10)
-    Xr, yr = KMeansCentres(random_state=0).fit_resample(X, y)
+    Xr, yr = KMeansCentres(distances=RAW, random_state=0).rebalance(X, y)
     assert np.bincount(yr).tolist() == [30, 30]
     np.testing.assert_array_equal(Xr[yr == 1], X[y == 1])
     centres = Xr[yr == 0]
@@ -276,8 +281,8 @@ def test_every_builtin_is_deterministic_under_random_state(name):
     X, y = two_classes(seed=11)
     X[:, 2] = np.round(np.abs(X[:, 2]))
     spec = parse_method(name + NEEDS_PARAMS.get(name, ""))
-    a = make_resampler(spec, 5).fit_resample(X, y)
-    b = make_resampler(spec, 5).fit_resample(X, y)
+    a = make_resampler(spec, 5).rebalance(X, y)
+    b = make_resampler(spec, 5).rebalance(X, y)
     np.testing.assert_array_equal(a[0], b[0])
     np.testing.assert_array_equal(a[1], b[1])
 
@@ -285,11 +290,11 @@ def test_every_builtin_is_deterministic_under_random_state(name):
 @pytest.mark.parametrize("name", ["smote", "borderline-smote-1", "borderline-smote-2", "adasyn", "smote-tomek"])
 def test_small_minority_falls_back_to_fewer_neighbours_and_single_sample_is_refused(name):
     X, y = two_classes(n_minor=4, seed=12, shift=0.3)
-    Xr, yr = make_resampler(parse_method(name), 1).fit_resample(X, y)      # 4 < k + 1 = 6: k becomes 3
+    Xr, yr = make_resampler(parse_method(name), 1).rebalance(X, y)      # 4 < k + 1 = 6: k becomes 3
     assert (yr == 1).sum() >= 4
     X1, y1 = two_classes(n_minor=1, seed=12)
     with pytest.raises(ResamplingError, match="at least 2 samples"):
-        make_resampler(parse_method(name), 1).fit_resample(X1, y1)
+        make_resampler(parse_method(name), 1).rebalance(X1, y1)
 
 
 @pytest.mark.parametrize("name", sorted(BUILTIN))
@@ -299,10 +304,10 @@ def test_duplicates_and_one_class(name):
     X = np.r_[X, X[-5:]]       # duplicated minority rows
     y = np.r_[y, y[-5:]]
     spec = parse_method(name + NEEDS_PARAMS.get(name, ""))
-    Xr, yr = make_resampler(spec, 0).fit_resample(X, y)
+    Xr, yr = make_resampler(spec, 0).rebalance(X, y)
     assert np.isfinite(Xr).all() and set(yr) == {0, 1}
     with pytest.raises(ResamplingError, match="one class"):
-        make_resampler(spec, 0).fit_resample(X[y == 0], y[y == 0])
+        make_resampler(spec, 0).rebalance(X[y == 0], y[y == 0])
 
 
 def test_entry_point_plugins_are_discovered(tmp_path, monkeypatch):
@@ -312,33 +317,34 @@ def test_entry_point_plugins_are_discovered(tmp_path, monkeypatch):
     (info / "METADATA").write_text("Metadata-Version: 2.1\nName: halves-demo\nVersion: 0.1\n")
     (info / "entry_points.txt").write_text("[lopsided.resamplers]\nhalves = plugins_for_tests:Halves\n")
     monkeypatch.syspath_prepend(str(tmp_path))
-    from lopsided.resamplers import describe
-    row = next(r for r in describe() if r.name == "halves")
+    from lopsided.methods.resamplers import REGISTRY
+    row = next(r for r in REGISTRY.describe() if r.name == "halves")
     assert (row.text, row.origin) == ("from plugins_for_tests:Halves", "plugin halves-demo 0.1")
     assert resolve("halves").__name__ == "Halves"
     assert "plugins_for_tests" in sys.modules
 
 
 def test_class_weights_reach_the_learner_or_fail_clearly(write_suite, tmp_path):
-    from lopsided.benchmark import run_suite
+    from lopsided.jobs.run import run_suite
     path = write_suite()
     text = path.read_text().replace('resamplers = ["none", "random-under", "topup-over"]', 'resamplers = ["class-weights"]')
     path.write_text(text.replace('learners = ["logistic-regression"', 'learners = ["knn", "logistic-regression"'))
-    cells = run_suite(path, out=tmp_path / "o", progress=False).cells
+    cells = run_suite(path, RunOptions(out=tmp_path / "o", execution=QUIET)).cells
     assert (cells.loc[cells.learner == "logistic-regression", "status"] == "ok").all()
     knn = cells[cells.learner == "knn"]
     assert (knn.status == "failed").all() and knn.error.str.contains("takes no sample weights").all()
 
 
-def test_the_example_plugin_joins_a_suite(write_suite, tmp_path, monkeypatch, capsys):
-    """The README's plugin walk-through, with the demo on the path instead of installed."""
+def test_the_example_plugin_joins_a_suite(tiny_board, tmp_path, monkeypatch, capsys):
+    """The README's plugin walk-through, with the demo on the path instead of installed, on a copy of the
+    conftest suite's run (conftest.tiny_board)."""
+    import shutil
     from pathlib import Path
 
     from lopsided.cli import main
     monkeypatch.syspath_prepend(str(Path(__file__).parents[1] / "examples" / "jitter_plugin"))
-    path = write_suite()
-    assert main(["run", str(path), "--out", str(tmp_path / "o"), "--quiet"]) == 0
-    capsys.readouterr()
+    path, board, _ = tiny_board
+    shutil.copytree(board, tmp_path / "o")
     assert main(["run", str(path), "--out", str(tmp_path / "o"), "--quiet",
                  "--add-resampler", "lopsided_jitter_demo:JitterOver?spread=0.2"]) == 0
     printed = capsys.readouterr().out
@@ -366,13 +372,13 @@ def test_random_under_checks_the_rows_it_returns_for_non_finite_values():
     minority row (always kept) is refused, the same draw as without NaN is returned otherwise."""
     rng = np.random.default_rng(3)
     X, y = rng.normal(size=(60, 4)), np.r_[np.zeros(50, int), np.ones(10, int)]
-    clean_X, clean_y = make_resampler(parse_method("random-under"), 1).fit_resample(X, y)
+    clean_X, clean_y = make_resampler(parse_method("random-under"), 1).rebalance(X, y)
     bad = X.copy()
     bad[55, 2] = np.nan                                  # a minority row: kept whatever the draw
     with pytest.raises(ResamplingError, match="NaN or infinite"):
-        make_resampler(parse_method("random-under"), 1).fit_resample(bad, y)
+        make_resampler(parse_method("random-under"), 1).rebalance(bad, y)
     dropped = next(i for i in range(50) if not (clean_X == X[i]).all(axis=1).any())
     bad = X.copy()
     bad[dropped, 0] = np.inf                             # a majority row the draw leaves out
-    again_X, again_y = make_resampler(parse_method("random-under"), 1).fit_resample(bad, y)
+    again_X, again_y = make_resampler(parse_method("random-under"), 1).rebalance(bad, y)
     assert np.array_equal(again_X, clean_X) and np.array_equal(again_y, clean_y)

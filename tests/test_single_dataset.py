@@ -13,7 +13,7 @@ from lopsided.analysis.single_dataset import (
     compare_to_best,
     corrected_t_test,
     correlated_posterior,
-    verdict,
+    read_best_comparison,
 )
 from lopsided.errors import LopsidedError
 
@@ -132,7 +132,7 @@ def test_compare_to_best_tests_every_method_against_the_top_mean():
     frame = result.as_frame()
     assert list(frame["method"]) == ["weighted-trees", "plain-trees", "svm", "nearest-centroid"]
     assert frame.loc[2, "minus_best"] == pytest.approx(-0.02)
-    said = verdict(result)
+    said = read_best_comparison(result)
     assert said.equivalent == ("plain-trees",)
     assert said.worse == ("nearest-centroid",)
     assert said.undecided == ("svm",)

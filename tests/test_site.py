@@ -1,11 +1,13 @@
 """The leaderboard site without a browser: the page table, self-contained output, escaping, significance
-letters and verdict sentences, the rank map, text contrast (WCAG) and colours under colour-vision
-deficiency (Machado et al. 2009)."""
+letters and verdict sentences, the rank map and its text colours, text contrast (WCAG) and colours under
+colour-vision deficiency (Machado et al. 2009)."""
+import dataclasses
 import itertools
 import json
 import re
 import tomllib
 from pathlib import Path
+from types import SimpleNamespace
 
 import jinja2
 import markupsafe
@@ -15,16 +17,21 @@ import pandas as pd
 import pytest
 
 from lopsided.analysis import compare
-from lopsided.benchmark import run_suite
-from lopsided.report import ENV, write_report
+from lopsided.analysis.multiplicity import single
+from lopsided.analysis.words import claims
+from lopsided.jobs.run import run_suite
+from lopsided.options import ExecutionOptions, RunOptions
+from lopsided.planning.suite import load_suite
+from lopsided.report import ENV, group_letters, heatmap, make_board
+from lopsided.report.answers import signed
+from lopsided.report.citations import formatted
 from lopsided.report.figures import COLOURS
 from lopsided.report.heatmap import RAMP, draw_rank_map, ranks_by_dataset
-from lopsided.report.site import PAGES, Page, group_letters, score_rows, top_group, verdict, write_site
-from lopsided.suite import load_suite
+from lopsided.report.site import Page, pages, score_rows, write_site
 
-RUN_PAGES = [p for p in PAGES if p.file != "try.html"]   # what a `lopsided run` folder has
 ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "lopsided" / "report"
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
 HOSTILE = '<img src=x onerror=alert(1)> & "lr"'
 
 SUITE = """
@@ -49,44 +56,57 @@ min_minority = 3
 
 @pytest.fixture(scope="module")
 def run(tmp_path_factory):
-    """One small run whose learner label is hostile HTML: (folder, run result, suite dict)."""
+    """One small run whose learner label is hostile HTML: (folder, run result, its Board, its pages)."""
     folder = tmp_path_factory.mktemp("site")
     suite = folder / "films.toml"
     suite.write_text(SUITE.replace("LEARNER", HOSTILE), encoding="utf-8")
-    result = run_suite(suite, out=folder / "out", progress=False)
-    return folder / "out", result, load_suite(suite).as_dict()
+    result = run_suite(suite, RunOptions(out=folder / "out", execution=QUIET))
+    figures = folder / "figures"
+    figures.mkdir()
+    board = make_board(load_suite(suite), result.cells, result.summary, figures)
+    return folder / "out", result, board, pages(board)
 
 
 def test_every_page_of_the_table_is_written_with_the_menu_and_its_own_template(run):
-    out, _, _ = run
-    assert PAGES[0].file == "index.html" and len({p.file for p in PAGES}) == len(PAGES)
+    out, _, _, found = run
+    assert found[0].file == "index.html" and len({p.file for p in found}) == len(found)
     assert not (out / "try.html").exists()          # a page only `lopsided try` folders have
-    for page in RUN_PAGES:
+    menu = [p for p in found if p.menu]
+    assert [p.file for p in found if not p.menu] == ["point-natural-all-mcc.html", "point-2-all-balanced_accuracy.html",
+                                                     "per-dataset-2.html"]          # one page per learner
+    for page in found:
         assert (PACKAGE / "templates" / page.template).is_file(), page.template
         html = (out / page.file).read_text(encoding="utf-8")
-        assert f'<a href="{page.file}" aria-current="page">{page.title}</a>' in html
-        assert all(f'href="{p.file}"' in html for p in RUN_PAGES)
+        assert all(f'href="{p.file}"' in html for p in menu)
         assert "research evidence" in html.lower()                        # the caution, on every page
+        if page.menu:
+            assert f'<a href="{page.file}" aria-current="page">{page.title}</a>' in html
+    first = (out / "point-natural-all-balanced_accuracy.html").read_text(encoding="utf-8")
+    assert 'href="point-2-all-balanced_accuracy.html"' in first and 'href="point-natural-all-mcc.html"' in first
+    assert 'href="per-dataset-2.html"' in (out / "per-dataset-1.html").read_text(encoding="utf-8")
 
 
 def test_a_new_page_is_one_entry_and_one_template(run, tmp_path):
-    out, result, suite = run
+    _, _, board, _ = run
     env = ENV.overlay(loader=jinja2.ChoiceLoader([
         jinja2.DictLoader({"extra.html.j2": '{% extends "base.html.j2" %}{% block content %}'
                                             '<p id="n">{{ count }} datasets</p>{% endblock %}'}),
         ENV.loader]))
-    extra = Page("extra.html", "extra.html.j2", "Extra", lambda ctx: {"count": len(ctx["suite"]["datasets"])})
-    context = {"suite": {"name": "films", "datasets": ["a", "b"]}, "summary": result.summary.as_json(), "caution": "Caution.",
-               "version": "0"}
-    write_site(env, tmp_path, context, pages=(extra,))
+    extra = Page("extra.html", "extra.html.j2", "Extra", lambda board: {"count": len(board.suite.datasets)})
+    write_site(env, tmp_path, board, chosen=(extra,))
     html = (tmp_path / "extra.html").read_text(encoding="utf-8")
-    assert '<p id="n">2 datasets</p>' in html and (tmp_path / "static" / "site.css").is_file()
+    assert '<p id="n">3 datasets</p>' in html and (tmp_path / "static" / "site.css").is_file()
+
+
+def test_every_page_stays_under_400_kilobytes_of_html(run):
+    out, _, _, found = run
+    assert all((out / p.file).stat().st_size < 400_000 for p in found)
 
 
 def test_the_folder_is_self_contained(run):
     """Every stylesheet, script, image and link of every page is a file in the folder: nothing remote."""
-    out, _, _ = run
-    for page in RUN_PAGES:
+    out, _, _, found = run
+    for page in found:
         html = (out / page.file).read_text(encoding="utf-8")
         assert not re.search(r'<(?:link|script|img|iframe)[^>]+(?:src|href)="(?:https?:)?//', html), page.file
         for target in re.findall(r'(?:href|src)="([^"#]+)"', html):
@@ -96,24 +116,25 @@ def test_the_folder_is_self_contained(run):
 
 
 def test_names_from_the_data_are_escaped_everywhere(run, tmp_path):
-    out, result, suite = run
-    hostile = result.summary.as_json()
-    hostile["datasets"] = [{**d, "note": "<script>alert(1)</script>", "licence": "a & b"} for d in hostile["datasets"]]
-    write_report(tmp_path, suite, result.cells, [], hostile)
-    for page in RUN_PAGES:
+    """The run's learner label is hostile HTML; the dataset notes and licences of its manifest become so too.
+    The site is written from the run's Board with that manifest (what write_report renders its pages from)."""
+    _, result, board, found = run
+    hostile = dataclasses.replace(result.summary, datasets=tuple(
+        dataclasses.replace(d, note="<script>alert(1)</script>", licence="a & b") for d in result.summary.datasets))
+    write_site(ENV, tmp_path, dataclasses.replace(board, summary=hostile))
+    for page in found:
         html = (tmp_path / page.file).read_text(encoding="utf-8")
         assert "<script>alert" not in html and "<img src=x" not in html, page.file
     assert "&lt;img src=x onerror=alert(1)&gt; &amp; &#34;lr&#34;" in (tmp_path / "index.html").read_text("utf-8")
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in (tmp_path / "datasets.html").read_text("utf-8")
     templates = "".join(p.read_text(encoding="utf-8") for p in (PACKAGE / "templates").glob("*.html.j2"))
-    assert re.findall(r"\|\s*safe", templates) == ["| safe"]             # our own SVG files, nothing else
-    assert "{{ svg(path) | safe }}" in templates
+    assert not re.findall(r"\|\s*safe", templates)                       # figures are files: nothing unescaped
 
 
 def test_the_headline_table_is_ranked_and_every_combination_can_be_filtered(run):
-    out, _, _ = run
+    out, _, _, _ = run
     html = (out / "index.html").read_text(encoding="utf-8")
-    table = html[html.index('<table class="ranked sortable" data-filters="learner resampler"'):]
+    table = html[html.index('<table class="ranked sortable sticky-first" data-filters="learner resampler"'):]
     table = table[:table.index("</table>")]
     cells = re.findall(r'<td class="num" data-value="([0-9.]+)">[0-9.]+<span class="interval below">\[', table)
     ranks = [float(v) for v in cells]
@@ -125,11 +146,33 @@ def test_score_rows_run_from_mild_to_strong_imbalance_then_by_rank():
     scores = pd.DataFrame([{"dataset": d, "ratio": "natural", "size": "all", "resampler": r, "learner": "lr",
                             "n_failed": 0, "n_cells": 2, "m_mean": v, "m_std": 0.0}
                            for d, values in (("hi", (0.9, 0.8)), ("lo", (0.5, 0.7))) for r, v in zip("ab", values)])
-    suite = {"protocol": {"ratios": ["natural"], "sizes": ["all"]}, "metrics": ["m"]}
-    rows = score_rows(scores, suite, {"hi": 12.0, "lo": 1.5})
-    assert [(r["dataset"], r["resampler"], r["rank"], r["band"]) for r in rows] == [
+    board = SimpleNamespace(primary=SimpleNamespace(metric="m", ratio="natural", size="all"), scores=scores,
+                            suite=SimpleNamespace(metrics=("m",)), short={"hi": "hi", "lo": "lo"},
+                            imbalance={"hi": 12.0, "lo": 1.5})
+    listed = score_rows(board)
+    assert listed["all_rows"]
+    assert [(r["dataset"], r["resampler"], r["rank"], r["band"]) for r in listed["rows"]] == [
         ("lo", "b", 1.0, "IR < 3"), ("lo", "a", 2.0, "IR < 3"),
         ("hi", "a", 1.0, "IR >= 9"), ("hi", "b", 2.0, "IR >= 9")]
+
+
+def test_a_long_score_table_keeps_every_dataset_even_when_its_best_combinations_tie(monkeypatch):
+    """Above ROWS_AT_MOST rows each dataset keeps its best few combinations; on "tied" 8 of 10 combinations
+    share the best score (average rank 4.5 each: a cut by average rank <= 5 would keep all 8, by <= 4 none)."""
+    monkeypatch.setattr("lopsided.report.site.ROWS_AT_MOST", 15)
+    values = {"tied": [1.0] * 8 + [0.5, 0.4], "spread": [i / 10 for i in range(10)]}
+    scores = pd.DataFrame([{"dataset": d, "ratio": "natural", "size": "all", "resampler": f"r{i}", "learner": "lr",
+                            "n_failed": 0, "n_cells": 2, "m_mean": v, "m_std": 0.0}
+                           for d, vs in values.items() for i, v in enumerate(vs)])
+    board = SimpleNamespace(primary=SimpleNamespace(metric="m", ratio="natural", size="all"), scores=scores,
+                            suite=SimpleNamespace(metrics=("m",)), short={d: d for d in values},
+                            imbalance={"tied": 2.0, "spread": 4.0})
+    listed = score_rows(board)
+    assert not listed["all_rows"] and listed["top"] == 5                 # min(5, 15 // 2 datasets)
+    shown = {d: [r["resampler"] for r in listed["rows"] if r["dataset"] == d] for d in values}
+    assert shown == {"tied": ["r0", "r1", "r2", "r3", "r4"], "spread": ["r9", "r8", "r7", "r6", "r5"]}
+    monkeypatch.setattr("lopsided.report.site.ROWS_AT_MOST", 7)            # fewer rows allowed: 3 per dataset
+    assert [r["resampler"] for r in score_rows(board)["rows"]] == ["r0", "r1", "r2", "r9", "r8", "r7"]
 
 
 def _orderings(counts):
@@ -146,24 +189,20 @@ def test_group_letters_follow_the_nemenyi_critical_difference():
     assert list(result.average_ranks) == [1.5, 2.0, 2.5]
     assert result.nemenyi.cd == pytest.approx(2.343 * np.sqrt(12 / (6 * 18)), abs=1e-3)
     assert result.friedman.decision_p < 0.05
-    assert group_letters(result) == {"A": "a", "B": "ab", "C": "b"}
-    assert top_group(result) == ["A", "B"]
-    lines = verdict({"metric": "m", "point": "p", "result": result}, [], 0.05)
-    assert lines == ["Overall (m at p, 18 datasets): A ranks first; not separated from it by the Nemenyi test: B."]
+    assert group_letters(result, single(result)) == {"A": "a", "B": "ab", "C": "b"}
+    lines = claims(result)
+    assert lines[1] == ("A ranks first; the Nemenyi test (alpha = 0.05, CD = 0.781 ranks) separates it from 1 of the "
+                        "other 2: C; the other 1 are not separated from it (which is not evidence that they are equal).")
 
 
-def test_no_letters_below_five_datasets_and_one_group_when_friedman_does_not_reject():
+def test_no_letters_below_five_datasets_nor_when_friedman_does_not_reject():
     few = compare(_orderings({"ABC": 4}))
-    assert group_letters(few) == {} and top_group(few) == []
-    assert "fewer than 5" in verdict({"metric": "m", "point": "p", "result": few}, [], 0.05)[0]
+    assert group_letters(few, single(few)) == {}
+    assert "No significance claim" in claims(few)[0]
     level = compare(_orderings({"ABC": 2, "BCA": 2, "CAB": 2}))           # every method ranks 2 on average
     assert level.friedman.decision_p >= 0.05
-    assert group_letters(level) == {"A": "a", "B": "a", "C": "a"}
-    assert "no winner" in verdict({"metric": "m", "point": "p", "result": level}, [], 0.05)[0]
-    row = {"by": "imbalance band", "band": "IR < 3", "point": "natural ratio, size all", "n": 3, "best": "A",
-           "tied": [], "p": None, "claim": "no claim: only 3 datasets (fewer than 5)"}
-    assert verdict(None, [row], 0.05)[1] == ("Imbalance band IR < 3 (natural ratio, size all, 3 datasets): "
-                                             "no claim: only 3 datasets (fewer than 5).")
+    assert group_letters(level, single(level)) == {}                       # no post-hoc claim without the omnibus
+    assert "does not reject" in claims(level)[0] and "exploratory only" in claims(level)[1]
 
 
 def test_the_rank_map_ranks_within_each_dataset_and_changes_no_global_setting(tmp_path):
@@ -202,9 +241,24 @@ def contrast(a, b):
     return (la + 0.05) / (lb + 0.05)
 
 
-def test_contrast_formula_matches_known_values():
-    assert contrast("#000000", "#ffffff") == pytest.approx(21.0)                 # WCAG 2.1, the maximum
-    assert contrast("#767676", "#ffffff") == pytest.approx(4.54, abs=0.01)      # lightest AA grey (from memory)
+def test_the_rank_maps_numbers_take_the_text_colour_with_more_contrast():
+    """heatmap.py writes a rank in white on cells darker than WHITE_BELOW (relative luminance), else in ink:
+    WHITE_BELOW must be where both have the same WCAG 2.1 contrast (3.8:1, as heatmap.py says), so every cell
+    of the ramp gets the better of the two, and heatmap's luminance must be WCAG's. The contrast helper is
+    first checked against known WCAG 2.1 values: 21:1 for black on white (the maximum) and 4.54:1 for #767676
+    on white (the lightest AA grey; from memory)."""
+    assert contrast("#000000", "#ffffff") == pytest.approx(21.0)
+    assert contrast("#767676", "#ffffff") == pytest.approx(4.54, abs=0.01)
+    ink = float(_linear(_srgb(heatmap.INK)) @ [0.2126, 0.7152, 0.0722])
+    equal = np.sqrt(1.05 * (ink + 0.05)) - 0.05          # (1 + 0.05) / (L + 0.05) = (L + 0.05) / (ink + 0.05)
+    assert heatmap.WHITE_BELOW == pytest.approx(equal, abs=0.005)
+    assert 1.05 / (equal + 0.05) == pytest.approx(3.8, abs=0.05)
+    for x in np.linspace(0, 1, 101):
+        cell = matplotlib.colors.to_hex(RAMP(x))
+        luminance = heatmap._luminance(matplotlib.colors.to_rgba(cell))
+        assert luminance == pytest.approx(float(_linear(_srgb(cell)) @ [0.2126, 0.7152, 0.0722]), abs=1e-12)
+        chosen, other = ("#ffffff", heatmap.INK) if luminance < heatmap.WHITE_BELOW else (heatmap.INK, "#ffffff")
+        assert contrast(chosen, cell) >= 0.99 * contrast(other, cell), cell
 
 
 def _css():
@@ -264,24 +318,25 @@ def _seen(hex_colour, matrix):
     return _lab(np.clip(matrix @ _linear(_srgb(hex_colour)), 0, 1))
 
 
-def test_the_simulation_matrices_behave_as_published():
+SERIES = 12  # suites draw up to 12 resampler series per figure: the palette has a colour for each
+
+
+def test_series_colours_stay_apart_in_normal_vision_and_for_deuteranopes_and_protanopes():
+    """The sweep figures' series colours (figures.py: every pair at least 13 CIE76 units apart in normal
+    vision and under simulated deuteranopia and protanopia, Machado et al. 2009, severity 1; 13 is over five
+    times the just-noticeable 2.3, common practice). The simulation itself is checked first: each matrix row
+    sums to 1 (greys stay grey, as published) and a strong red and green collapse to under a third of their
+    normal distance."""
+    normal = np.linalg.norm(_seen("#d00000", np.eye(3)) - _seen("#00a000", np.eye(3)))
     for matrix in (DEUTERANOPIA, PROTANOPIA):
         assert matrix.sum(axis=1) == pytest.approx([1, 1, 1], abs=1e-5)
-        red, green = (_seen(c, matrix) for c in ("#d00000", "#00a000"))
-        normal = np.linalg.norm(_seen("#d00000", np.eye(3)) - _seen("#00a000", np.eye(3)))
-        assert np.linalg.norm(red - green) < normal / 3                  # red and green collapse
-
-
-SERIES_CHECKED = 12  # every colour of the palette (suites draw up to 12 resampler series per figure)
-
-
-def test_series_colours_stay_apart_for_deuteranopes():
-    """The sweep figures' series colours, seen with deuteranopia (Machado et al. 2009, severity 1): every
-    pair at least 10 CIE76 units apart (about four times the just-noticeable 2.3; common practice)."""
-    seen = [_seen(c, DEUTERANOPIA) for c in COLOURS[:SERIES_CHECKED]]
-    gaps = {(COLOURS[i], COLOURS[j]): np.linalg.norm(seen[i] - seen[j])
-            for i, j in itertools.combinations(range(SERIES_CHECKED), 2)}
-    assert min(gaps.values()) >= 10, min(gaps.items(), key=lambda kv: kv[1])
+        assert np.linalg.norm(_seen("#d00000", matrix) - _seen("#00a000", matrix)) < normal / 3
+    assert len(COLOURS) == SERIES
+    for matrix in (np.eye(3), DEUTERANOPIA, PROTANOPIA):
+        seen = [_seen(c, matrix) for c in COLOURS]
+        gaps = {(COLOURS[i], COLOURS[j]): np.linalg.norm(seen[i] - seen[j])
+                for i, j in itertools.combinations(range(SERIES), 2)}
+        assert min(gaps.values()) >= 13, min(gaps.items(), key=lambda kv: kv[1])
 
 
 def test_the_rank_ramp_keeps_its_order_in_every_simulation():
@@ -295,9 +350,27 @@ def test_the_rank_ramp_keeps_its_order_in_every_simulation():
 
 
 def test_stats_and_site_agree_on_the_headline_comparison(run):
-    out, _, _ = run
+    out, _, _, _ = run
     stats = json.loads((out / "stats.json").read_text(encoding="utf-8"))
     main = next(c for c in stats["comparisons"] if c["view"] == "all" and c["metric"] == "balanced_accuracy")
     html = (out / "index.html").read_text(encoding="utf-8")
     best = next(iter(main["average_ranks"]))
     assert f'<th scope="row" class="method">{markupsafe.escape(best)}</th>' in html
+
+
+def test_a_difference_that_rounds_to_zero_keeps_its_digits_and_its_sign():
+    assert [signed(v) for v in (0.0842, -0.0366, -0.00031, 0.000049, -0.00049, 0.0, 3e-7)] == [
+        "+0.084", "-0.037", "-0.00031", "+0.000049", "-0.00049", "0.000", "0.000"]
+
+
+def test_references_read_as_text_not_as_bibtex():
+    """Accents, TeX quotes and dashes, a thesis's school and a series volume, as a reader expects them."""
+    thesis = formatted("@phdthesis{n,\n  author = {Nemenyi, Peter Bjorn},\n  title = {Distribution-free Multiple "
+                       "Comparisons},\n  school = {Princeton University},\n  year = {1963}\n}")
+    assert thesis == "Nemenyi, Peter Bjorn (1963). Distribution-free Multiple Comparisons. PhD thesis, Princeton University."
+    article = formatted("@article{a,\n  author = {Derrac, Joaqu{\\'\\i}n and Garc{\\'\\i}a, Salvador},\n  title = "
+                        "{A ``quoted'' title},\n  journal = {J},\n  volume = {17},\n  number = {2--3},\n  pages = "
+                        "{255--287},\n  year = {2011}\n}")
+    assert article == "Derrac, Joaquín & García, Salvador (2011). A “quoted” title. J, 17(2–3), 255–287."
+    run = formatted("@misc{r,\n  title = {Leaderboard of the suite ``keel''},\n  year = {2026}\n}")
+    assert run == "Leaderboard of the suite “keel” (2026)."

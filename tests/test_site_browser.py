@@ -1,10 +1,12 @@
-"""The committed demo site (results/quick) in a real headless Chromium, driven by Playwright.
+"""The committed sites (results/quick, keel, spectra) in a real headless Chromium, driven by Playwright.
 
 Skipped, with the reason, only when Debian's chromium or the playwright package is missing. Checks: no
 console error, no failed request and no request leaving the folder, on every page, opened from a file URL
-and from a local static server; every figure drawn with a non-zero size; a click on a column heading
-reorders the rows; a filter hides rows; the tables are complete without JavaScript. First-render times
-are printed, never asserted. Screenshots at 1280 and 390 px go to the test's tmp folder.
+and from a local static server; every figure drawn with a non-zero size; at 1280 and 390 px no table or
+figure wider than the window outside a scroll container, and the Overview's first screen holding the
+answer of every learner; every page in the menu has content and stays under 400 kB of HTML; a click on a
+column heading reorders the rows; a filter hides rows; the tables are complete without JavaScript.
+First-render times are printed, never asserted. Screenshots at 1280 and 390 px go to the test's tmp folder.
 """
 import functools
 import http.server
@@ -14,14 +16,17 @@ from urllib.parse import unquote, urlparse
 
 import pytest
 
-from lopsided.report.site import PAGES
-
-RUN_PAGES = [p for p in PAGES if p.file != "try.html"]   # the try page exists only in `lopsided try` folders
-
 sync_api = pytest.importorskip("playwright.sync_api", reason="playwright (pip install playwright) is not installed")
 
 ROOT = Path(__file__).resolve().parents[1]
 SITE = ROOT / "results" / "quick"
+SITES = ["quick", "keel", "spectra"]
+PHONE_HEIGHT = 844        # a common phone viewport (390 x 844 CSS px); desktop: 1280 x 900
+
+
+def site_pages(site):
+    """Every page of a committed site folder (the try page only exists in `lopsided try` folders)."""
+    return sorted(p.name for p in (ROOT / "results" / site).glob("*.html"))
 CHROMIUM = Path("/usr/bin/chromium")
 ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
         "--disable-background-networking", "--disable-component-update", "--disable-sync"]
@@ -55,7 +60,8 @@ class Watched:
 
     def __init__(self, browser, base, width=1280, javascript=True):
         self.base, self.problems, self.urls = base, [], []
-        self.context = browser.new_context(viewport={"width": width, "height": 900}, java_script_enabled=javascript)
+        height = PHONE_HEIGHT if width < 600 else 900
+        self.context = browser.new_context(viewport={"width": width, "height": height}, java_script_enabled=javascript)
         self.page = self.context.new_page()
         self.page.on("console", lambda m: m.type == "error" and self.problems.append(f"console: {m.text}"))
         self.page.on("pageerror", lambda e: self.problems.append(f"page error: {e}"))
@@ -99,14 +105,16 @@ def test_every_page_loads_cleanly_with_every_figure_drawn(browser, served, schem
     base = SITE.as_uri() + "/" if scheme == "file" else served
     watched = Watched(browser, base)
     try:
-        for page in RUN_PAGES:
-            view = watched.open(page.file)
-            print(f"{scheme} {page.file}: first render {_first_render_ms(view):.0f} ms (target < 1000 ms)")
+        for file in site_pages("quick"):
+            view = watched.open(file)
+            print(f"{scheme} {file}: first render {_first_render_ms(view):.0f} ms (target < 1000 ms)")
+            view.evaluate("Array.from(document.images).forEach(i => i.loading = 'eager')")
+            view.wait_for_function("Array.from(document.images).every(i => i.complete)")
             drawn = _figures_drawn(view)
-            assert all(w > 0 and h > 0 for _, w, h in drawn), f"{page.file}: figures of zero size: {drawn}"
+            assert all(w > 0 and h > 0 for _, w, h in drawn), f"{file}: figures of zero size: {drawn}"
             links = view.eval_on_selector_all("a[download]", "as => as.map(a => a.href)")
             missing = [u for u in links if u.startswith("file:") and not Path(_file_path(u)).is_file()]
-            assert not missing, f"{page.file}: download links to missing files: {missing}"
+            assert not missing, f"{file}: download links to missing files: {missing}"
         assert not watched.problems, watched.problems
     finally:
         watched.close()
@@ -121,16 +129,16 @@ def test_a_click_on_a_column_heading_reorders_the_rows(browser):
     watched = Watched(browser, SITE.as_uri() + "/")
     try:
         page = watched.open("index.html")
-        table = "table.ranked"                               # the headline table, by average rank
-        methods = _column(page, table, 1)
-        assert _column(page, table, 0) == [str(i) for i in range(1, len(methods) + 1)]
-        page.click(f"{table} thead th:nth-child(2) button")  # by name, A to Z
-        by_name = _column(page, table, 1)
+        table = "table.ranked"                               # the all-combinations table, by average rank
+        methods = _column(page, table, 0)
+        assert _column(page, table, 1) == [str(i) for i in range(1, len(methods) + 1)]
+        page.click(f"{table} thead th:nth-child(1) button")  # by name, A to Z
+        by_name = _column(page, table, 0)
         assert by_name == sorted(methods, key=str.lower) and by_name != methods
-        page.click(f"{table} thead th:nth-child(2) button")  # again: Z to A
-        assert _column(page, table, 1) == by_name[::-1]
-        page.click(f"{table} thead th:nth-child(1) button")  # back by place
-        assert _column(page, table, 1) == methods
+        page.click(f"{table} thead th:nth-child(1) button")  # again: Z to A
+        assert _column(page, table, 0) == by_name[::-1]
+        page.click(f"{table} thead th:nth-child(2) button")  # back by place
+        assert _column(page, table, 0) == methods
         assert not watched.problems, watched.problems
     finally:
         watched.close()
@@ -172,17 +180,36 @@ def test_tables_are_complete_and_ordered_without_javascript(browser):
         watched.close()
 
 
+OUTSIDE_SCROLL = """() => Array.from(document.querySelectorAll('table, figure, img, pre')).filter(e => {
+    if (e.getBoundingClientRect().right <= window.innerWidth + 1) return false;
+    for (let p = e.parentElement; p; p = p.parentElement) {
+        if (['auto', 'scroll'].includes(getComputedStyle(p).overflowX)) return false; }
+    return true; }).map(e => e.tagName + ' ' + (e.getAttribute('aria-label') || e.className))"""
+
+
+@pytest.mark.parametrize("site", SITES)
 @pytest.mark.parametrize("width", [1280, 390])
-def test_screenshots_at_desktop_and_phone_widths(browser, width, tmp_path):
-    watched = Watched(browser, SITE.as_uri() + "/", width=width)
+def test_pages_fit_the_window_have_content_and_the_overview_opens_with_the_answer(browser, site, width, tmp_path):
+    folder = ROOT / "results" / site
+    watched = Watched(browser, folder.as_uri() + "/", width=width)
     try:
-        for page in RUN_PAGES:
-            view = watched.open(page.file)
+        for file in site_pages(site):
+            assert (folder / file).stat().st_size < 400_000, f"{site}/{file}: over 400 kB of HTML"
+            view = watched.open(file)
             overflow = view.evaluate("document.documentElement.scrollWidth - document.documentElement.clientWidth")
-            assert overflow <= 1, f"{page.file} at {width} px: the page scrolls sideways by {overflow} px"
-            shot = tmp_path / f"{Path(page.file).stem}-{width}.png"
-            view.screenshot(path=str(shot), full_page=page.file == "index.html")
+            assert overflow <= 1, f"{site}/{file} at {width} px: the page scrolls sideways by {overflow} px"
+            assert not view.evaluate(OUTSIDE_SCROLL), f"{site}/{file} at {width} px: wider than the window"
+            words = view.evaluate("document.querySelector('main').innerText.trim().split(/\\s+/).length")
+            assert words > 60, f"{site}/{file}: a page with almost nothing on it ({words} words)"
+            shot = tmp_path / f"{site}-{Path(file).stem}-{width}.png"
+            view.screenshot(path=str(shot), full_page=file == "index.html")
             print(f"screenshot: {shot}")
+        view = watched.open("index.html")
+        learners = view.eval_on_selector_all("table.answers tbody tr", "rows => rows.map(r => r.getBoundingClientRect().bottom)")
+        screen = view.evaluate("window.innerHeight")
+        assert learners and max(learners) <= screen, f"{site} at {width} px: answers end at {max(learners)} > {screen}"
+        menu = view.eval_on_selector_all("header nav a", "as => as.map(a => a.getAttribute('href'))")
+        assert set(menu) <= set(site_pages(site)), f"{site}: the menu links a page that is not there"
         assert not watched.problems, watched.problems
     finally:
         watched.close()

@@ -13,7 +13,7 @@ from lopsided.datasets.spectra import (
     SERUM_EFFECT,
     serum_amplitudes,
 )
-from lopsided.preprocessing import make_preprocessing
+from lopsided.methods.preprocessing import make_preprocessing
 from lopsided.specs import parse_method
 
 TOLERANCE = 8.0   # cm-1: band positions in the mean spectrum, at a 2 cm-1 grid (our stated tolerance)

@@ -4,11 +4,14 @@ import pandas as pd
 import pytest
 from sklearn.cross_decomposition import PLSRegression
 
-from lopsided.benchmark import run_suite
 from lopsided.datasets import load_dataset
 from lopsided.errors import DatasetError
-from lopsided.learners import PLSDA
-from lopsided.protocol import class_orders, fold_splits, point_counts, point_rows
+from lopsided.jobs.run import run_suite
+from lopsided.methods.learners import PLSDA
+from lopsided.options import ExecutionOptions, RunOptions
+from lopsided.planning.protocol import class_orders, fold_splits, point_counts, point_rows
+
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
 
 SPECTRA_SUITE = """
 name = "spectra-tiny"
@@ -55,7 +58,7 @@ def test_random_split_inflates_the_score_of_replicated_donors(write_suite, tmp_p
     text = SPECTRA_SUITE.format(split="folds = 3", ratios='["natural"]', sizes='["all"]')
     text = text.replace("effect=2", "effect=0").replace("replicates=3", "replicates=6")
     path = write_suite(text=text, name="leak.toml")
-    result = run_suite(path, out=tmp_path / "o", progress=False, compare_split_leakage=True)
+    result = run_suite(path, RunOptions(out=tmp_path / "o", split_leakage=True, execution=QUIET))
     rows = result.summary.split_leakage
     assert {r["learner"] for r in rows} == {"pls-da", "linear-svm"}
     assert all(r["grouped"] == pytest.approx(0.5, abs=0.15) for r in rows)    # no class effect: chance
@@ -65,7 +68,7 @@ def test_random_split_inflates_the_score_of_replicated_donors(write_suite, tmp_p
 
 def test_spectra_suite_with_preprocessing_and_learning_curve(write_suite, tmp_path):
     text = SPECTRA_SUITE.format(split="holdout = 0.3", ratios='["balanced"]', sizes="[8, 16, 24]")
-    result = run_suite(write_suite(text=text, name="curve.toml"), out=tmp_path / "o", progress=False)
+    result = run_suite(write_suite(text=text, name="curve.toml"), RunOptions(out=tmp_path / "o", execution=QUIET))
     cells = result.cells
     assert (cells["status"] == "ok").all()
     assert sorted(cells["n_train"].unique()) == [8, 16, 24]

@@ -3,7 +3,7 @@ import pytest
 
 from lopsided.cli import main
 from lopsided.errors import SuiteError
-from lopsided.suite import load_suite
+from lopsided.planning.suite import load_suite
 
 
 def error_of(path):

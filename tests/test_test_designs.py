@@ -2,11 +2,14 @@
 import numpy as np
 import pandas as pd
 
-from lopsided.benchmark import load_all, run_suite
 from lopsided.cli import main
-from lopsided.runner import plan
-from lopsided.suite import load_suite
-from lopsided.tryout import try_dataset
+from lopsided.jobs.run import load_all, run_suite
+from lopsided.jobs.tryout import try_dataset
+from lopsided.options import ExecutionOptions, RunOptions, TryOptions
+from lopsided.planning.plan import plan
+from lopsided.planning.suite import load_suite
+
+QUIET = ExecutionOptions(progress=False)   # no progress bar in tests
 
 SUITE = """
 name = "design"
@@ -76,7 +79,7 @@ def test_an_external_test_set_is_checked_and_used_as_the_only_test_part(tmp_path
     other = _table(tmp_path / "other.csv", 40, 3, ["b"], donors_from=1000)
     ref = f'"file:{train}?label=label&drop=site,donor"'
     path = _suite(tmp_path, ref, f"file:{other}?label=label&drop=site,donor")
-    result = run_suite(path, out=tmp_path / "o", progress=False)
+    result = run_suite(path, RunOptions(out=tmp_path / "o", execution=QUIET))
     assert set(result.cells["n_test"]) == {40}
     board = (tmp_path / "o" / "leaderboard.md").read_text(encoding="utf-8")
     assert "an external test set" in board and "not independent replications" in board
@@ -87,8 +90,7 @@ def test_an_external_test_set_is_checked_and_used_as_the_only_test_part(tmp_path
 
 def test_try_on_a_fixed_test_part_makes_no_test_across_repeats(write_suite, tmp_path):
     suite = write_suite()
-    result = try_dataset("sklearn:wine?positive=0", suite_path=suite, combos=("random-under + logistic-regression",),
-                         out=tmp_path / "t", progress=False, test="fixed")
+    result = try_dataset("sklearn:wine?positive=0", TryOptions(suite=suite, combos=("random-under + logistic-regression",), out=tmp_path / "t", test="fixed", execution=QUIET))
     assert any("not independent replications" in line for line in result.verdict)
     assert not any("t-test" in line for line in result.verdict)
 

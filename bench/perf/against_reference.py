@@ -42,12 +42,12 @@ import numpy as np  # noqa: E402
 from imblearn import combine, over_sampling, under_sampling  # noqa: E402
 from sklearn.cluster import KMeans  # noqa: E402
 
-from lopsided.resamplers.cleaning import NeighbourEditing, OneSidedSelection, TomekCleaning  # noqa: E402
-from lopsided.resamplers.clusters import KMeansCentres  # noqa: E402
-from lopsided.resamplers.combined import SmoteThenEditing, SmoteThenTomek  # noqa: E402
-from lopsided.resamplers.nearmiss import NearMissUnder  # noqa: E402
-from lopsided.resamplers.random import RandomUnder, TopUpOver  # noqa: E402
-from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote, SmoteNominal  # noqa: E402
+from lopsided.methods.resamplers.cleaning import NeighbourEditing, OneSided, TomekCleaning  # noqa: E402
+from lopsided.methods.resamplers.clusters import KMeansCentres  # noqa: E402
+from lopsided.methods.resamplers.combined import SmoteThenEditing, SmoteThenTomek  # noqa: E402
+from lopsided.methods.resamplers.nearmiss import NearMissUnder  # noqa: E402
+from lopsided.methods.resamplers.random import RandomUnder, TopUpOver  # noqa: E402
+from lopsided.methods.resamplers.smote import Adasyn, BorderlineSmote, Smote, SmoteNominal  # noqa: E402
 
 SIZES = ((5_000, 20), (50_000, 20), (20_000, 400))
 SMALLEST_ONLY = {"cluster-centres"}
@@ -86,8 +86,8 @@ PAIRS = {      # registry name: (lopsided resampler, imbalanced-learn resampler)
                    lambda: under_sampling.NearMiss(version=2, n_neighbors=3)),
     "nearmiss-3": (lambda: NearMissUnder(rule=3, neighbours=3, keep_neighbours=3),
                    lambda: under_sampling.NearMiss(version=3, n_neighbors=3, n_neighbors_ver3=3)),
-    "one-sided-selection": (lambda: OneSidedSelection(random_state=0),
-                            lambda: under_sampling.OneSidedSelection(n_neighbors=1, n_seeds_S=1, random_state=0)),
+    "one-sided-selection": (lambda: OneSided(random_state=0),
+                            lambda: under_sampling.OneSided(n_neighbors=1, n_seeds_S=1, random_state=0)),
     "cluster-centres": (lambda: KMeansCentres(random_state=0),
                         lambda: under_sampling.ClusterCentroids(estimator=KMeans(n_init=1, random_state=0),
                                                                 voting="soft", random_state=0)),
@@ -119,7 +119,7 @@ def seconds(make, X, y):
     """CPU seconds per fit_resample call of a fresh resampler (the mean of as many calls as fill MIN_SECONDS)."""
     calls, started = 0, time.process_time()
     while calls == 0 or time.process_time() - started < MIN_SECONDS:
-        make().fit_resample(X, y)
+        make().rebalance(X, y)
         calls += 1
     return (time.process_time() - started) / calls
 

@@ -42,12 +42,15 @@ import pandas as pd
 from runner_overhead import plain_loop, timed
 from threadpoolctl import threadpool_limits
 
-from lopsided.benchmark import load_all
+from lopsided import __version__
 from lopsided.errors import LopsidedError
+from lopsided.execution.driver import BATCH_CELLS, run_plan
+from lopsided.execution.store import Store
+from lopsided.jobs.run import load_all
+from lopsided.options import ExecutionOptions
+from lopsided.planning.plan import plan
+from lopsided.planning.suite import load_suite
 from lopsided.records import CellRow
-from lopsided.runner import BATCH_CELLS, plan, run_plan
-from lopsided.store import Store
-from lopsided.suite import load_suite
 
 SUITE = """
 name = "perf-backends"
@@ -112,7 +115,7 @@ def runner_alone(path, work, tag):
     datasets = load_all(suite)
     db = Store(work / f"alone-{tag}.sqlite")
     try:
-        run_plan(plan(suite, datasets), datasets, suite, db, progress=False, backend="serial")
+        run_plan(plan(suite, datasets), datasets, suite, db, ExecutionOptions(progress=False, backend="serial"))
     finally:
         db.close()
 
@@ -187,8 +190,8 @@ def timed_runs_in(work, rounds, suite_file=None):
 def synthetic_rows(n_units, learners=10):
     """CellRows as the runner makes them (metrics as JSON text, as workers send them): 10 learners per unit,
     metrics of a two-class dataset."""
-    code = json.dumps({"learner": "lopsided 0.1.0", "lopsided": "0.1.0", "preprocessing": [], "protocol": 1,
-                       "resampler": "lopsided 0.1.0"}, sort_keys=True, separators=(",", ":"))
+    code = json.dumps({"learner": f"lopsided {__version__}", "lopsided": __version__, "preprocessing": [],
+                       "protocol": 1, "resampler": f"lopsided {__version__}"}, sort_keys=True, separators=(",", ":"))
     for u in range(n_units):
         dataset, rest = divmod(u, 2000)
         point, rest = divmod(rest, 500)

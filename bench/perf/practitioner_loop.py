@@ -63,8 +63,9 @@ from sklearn.model_selection import RepeatedStratifiedKFold, cross_validate  # n
 from sklearn.preprocessing import StandardScaler  # noqa: E402
 from sklearn.tree import DecisionTreeClassifier  # noqa: E402
 
-from lopsided.benchmark import load_all, run_suite  # noqa: E402
-from lopsided.suite import load_suite  # noqa: E402
+from lopsided.jobs.run import load_all, run_suite  # noqa: E402
+from lopsided.options import ExecutionOptions, RunOptions  # noqa: E402
+from lopsided.planning.suite import load_suite  # noqa: E402
 
 SEED = 11
 SUITE = f"""
@@ -143,10 +144,8 @@ def main():
     for round_no in range(args.rounds):
         runs = {
             names[0]: lambda: practitioner_loop(datasets),
-            names[1]: lambda: run_suite(path, jobs=1, backend="serial", out=work / f"serial-{round_no}",
-                                        store=work / f"serial-{round_no}.sqlite", progress=False),
-            names[2]: lambda: run_suite(path, jobs=2, backend="processes", out=work / f"two-{round_no}",
-                                        store=work / f"two-{round_no}.sqlite", progress=False),
+            names[1]: lambda: run_suite(path, RunOptions(out=work / f"serial-{round_no}", store=work / f"serial-{round_no}.sqlite", execution=ExecutionOptions(jobs=1, backend="serial", progress=False))),
+            names[2]: lambda: run_suite(path, RunOptions(out=work / f"two-{round_no}", store=work / f"two-{round_no}.sqlite", execution=ExecutionOptions(jobs=2, backend="processes", progress=False))),
         }
         order = names[round_no % 3:] + names[:round_no % 3]      # each side goes first in turn
         for name in order:

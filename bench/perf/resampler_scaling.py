@@ -16,8 +16,8 @@ import tracemalloc
 import numpy as np
 from scipy.spatial.distance import cdist
 
-from lopsided.resamplers.cleaning import NeighbourEditing, TomekCleaning
-from lopsided.resamplers.smote import Adasyn, BorderlineSmote, Smote
+from lopsided.methods.resamplers.cleaning import NeighbourEditing, TomekCleaning
+from lopsided.methods.resamplers.smote import Adasyn, BorderlineSmote, Smote
 
 METHODS = {
     "smote": lambda: Smote(random_state=0),
@@ -69,7 +69,7 @@ def main():
             previous = None
             for n in args.sizes:
                 X, y = data(n, d)
-                seconds, peak = measure(lambda: make().fit_resample(X, y))
+                seconds, peak = measure(lambda: make().rebalance(X, y))
                 growth = (f"{math.log(seconds / previous[1]) / math.log(n / previous[0]):.2f}"
                           if previous else "")
                 matrix = n * n * 8 / 2 ** 20

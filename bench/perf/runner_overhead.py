@@ -21,12 +21,15 @@ from pathlib import Path
 
 from sklearn.metrics import average_precision_score, balanced_accuracy_score, matthews_corrcoef, roc_auc_score
 
-from lopsided.backends import open_backend
-from lopsided.benchmark import load_all, run_suite
-from lopsided.learners import make_learner
-from lopsided.resamplers import make_resampler
-from lopsided.runner import execute, plan, run_unit
-from lopsided.suite import load_suite
+from lopsided.execution.backends import open_backend
+from lopsided.execution.driver import execute
+from lopsided.execution.units import run_unit
+from lopsided.jobs.run import load_all, run_suite
+from lopsided.methods.learners import make_learner
+from lopsided.methods.resamplers import make_resampler
+from lopsided.options import ExecutionOptions, RunOptions
+from lopsided.planning.plan import plan
+from lopsided.planning.suite import load_suite
 
 SUITE = """
 name = "perf-runner"
@@ -51,7 +54,7 @@ def plain_loop(suite, datasets, units):
         data = datasets[unit.coords.dataset]
         X_train, y_train = data.X[unit.train], data.y[unit.train]
         X_test, y_test = data.X[unit.test], data.y[unit.test]
-        X_res, y_res = make_resampler(unit.resampler, unit.seed).fit_resample(X_train, y_train)
+        X_res, y_res = make_resampler(unit.resampler, unit.seed).rebalance(X_train, y_train)
         for cell in unit.cells:
             model = make_learner(cell.learner, cell.seed).fit(X_res, y_res)
             predicted = model.predict(X_test)
@@ -92,11 +95,9 @@ def main():
     times = {"lopsided --jobs 1": [], "plain scikit-learn loop": [], "lopsided --jobs 2": [],
              "execution phase, 1 process": [], "execution phase, 2 processes": []}
     for round_no in range(args.rounds):
-        times["lopsided --jobs 1"].append(timed(lambda: run_suite(
-            path, jobs=1, out=work / f"a{round_no}", progress=False)))
+        times["lopsided --jobs 1"].append(timed(lambda: run_suite(path, RunOptions(out=work / f"a{round_no}", execution=ExecutionOptions(jobs=1, progress=False)))))
         times["plain scikit-learn loop"].append(timed(lambda: plain_loop(suite, datasets, units)))
-        times["lopsided --jobs 2"].append(timed(lambda: run_suite(
-            path, jobs=2, out=work / f"c{round_no}", progress=False)))
+        times["lopsided --jobs 2"].append(timed(lambda: run_suite(path, RunOptions(out=work / f"c{round_no}", execution=ExecutionOptions(jobs=2, progress=False)))))
         for jobs in (1, 2):
             times[f"execution phase, {jobs} process{'es' if jobs > 1 else ''}"].append(timed(
                 lambda: execution_phase(units, datasets, suite, jobs)))

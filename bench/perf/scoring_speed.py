@@ -19,7 +19,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np  # noqa: E402
 from sklearn.metrics import average_precision_score, confusion_matrix, f1_score, matthews_corrcoef, roc_auc_score  # noqa: E402
 
-from lopsided.metrics import score_cell  # noqa: E402
+from lopsided.methods.metrics import score_cell  # noqa: E402
 
 ROWS = (100, 1_000, 10_000)
 CALLS = {100: 40, 1_000: 20, 10_000: 5}     # calls per timing, so each timing lasts a few milliseconds

@@ -16,9 +16,9 @@ from unittest import mock
 
 import pandas as pd
 
+from lopsided.planning.suite import load_suite
 from lopsided.report import write_report
 from lopsided.report.pool import usable_cores
-from lopsided.suite import load_suite
 
 ROOT = Path(__file__).resolve().parents[2]
 KEEL, QUICK = ROOT / "results" / "keel", ROOT / "results" / "quick"

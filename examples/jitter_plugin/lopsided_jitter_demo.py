@@ -13,7 +13,7 @@ class JitterOver:
         self.spread = spread
         self.random_state = random_state
 
-    def fit_resample(self, X, y):
+    def rebalance(self, X, y):
         X, y = np.asarray(X, dtype=float), np.asarray(y)
         rng = np.random.default_rng(self.random_state)
         labels, counts = np.unique(y, return_counts=True)

@@ -21,6 +21,11 @@ class BayesResult:
     b_better: float     # P(the second method is practically better): theta_right is the largest
 
 
+def monte_carlo_error(probability, draws):
+    """Standard error of a probability estimated as a share of ``draws`` posterior draws: sqrt(p (1 - p) / S)."""
+    return float(np.sqrt(probability * (1.0 - probability) / draws))
+
+
 def dirichlet_weights(n, samples=4000, prior=1.0, seed=0):
     """(n + 1, samples) posterior weights, one column per draw; row 0 is the pseudo-observation at zero."""
     rng = np.random.default_rng(seed)

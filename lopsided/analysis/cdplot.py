@@ -15,33 +15,46 @@ ROW = 0.24          # inches per method row
 CHAR = 0.068        # inches per character at FONT points (DejaVu Sans, measured on average text)
 
 
-def draw(result, stem, title=None):
-    """Write ``stem``.svg and ``stem``.png; returns the two paths."""
-    names = result.methods
-    ranks = result.average_ranks.to_numpy()
-    k = len(names)
-    left_n = (k + 1) // 2
+NAMED_AT_MOST = 16   # larger comparisons name their best NAMED_TOP and mark the rest on the axis unnamed
+NAMED_TOP = 12
+
+
+def draw(result, stem, title=None, bars=None, note=None):
+    """Write ``stem``.svg and ``stem``.png; returns the two paths. ``bars``: draw the Nemenyi bars and the
+    CD (default: when the comparison allows claims); without them the figure shows average ranks only and
+    ``note`` (or a default) says why. With more than NAMED_AT_MOST methods only the best NAMED_TOP are
+    named (the rest are dots on the axis, listed in the table beside the figure), so labels keep their size."""
+    bars_shown = result.claims_allowed if bars is None else bars
+    every = result.average_ranks.to_numpy()
+    k = len(every)
+    shown = k if k <= NAMED_AT_MOST else NAMED_TOP
+    names = result.methods[:shown]
+    ranks = every[:shown]
+    left_n = (shown + 1) // 2
     label_in = (max(len(n) for n in names) + 7) * CHAR + 0.5
     scale_in = max(4.0, min(9.0, 0.55 * k))
-    bars = result.groups
+    bars = [g for g in result.groups if result.methods.index(g[0]) < shown] if bars_shown else []
     height = 1.25 + ROW * (left_n + 1) + 0.14 * len(bars)
     width = scale_in + 2 * label_in
     fig = Figure(figsize=(width, height))
-    ax = fig.add_axes([label_in / width, 0.0, scale_in / width, 1.0])
+    ax = fig.add_axes((label_in / width, 0.0, scale_in / width, 1.0))
     ax.set_xlim(1, k)
     ax.set_ylim(-(height - 0.95) / ROW, 0.95 / ROW)
     ax.axis("off")
     _axis(ax, k)
-    _cd_scale(ax, result.nemenyi.cd, k)
+    if bars_shown:
+        _cd_scale(ax, result.nemenyi.cd, k)
     bar_base = -0.55
     for row, group in enumerate(bars):
-        lo, hi = ranks[names.index(group[0])], ranks[names.index(group[-1])]
+        lo, hi = every[result.methods.index(group[0])], every[result.methods.index(group[-1])]
         y = bar_base - row * 0.55
         ax.plot([lo - 0.03, hi + 0.03], [y, y], color=BAR, lw=3.2, solid_capstyle="round")
     first_label = bar_base - len(bars) * 0.55 - 0.6
+    for rank in every[shown:]:
+        ax.plot([rank], [0], marker="o", ms=2.5, color=MUTED, clip_on=False)
     for i, (name, rank) in enumerate(zip(names, ranks)):
         on_left = i < left_n
-        row = i if on_left else k - 1 - i
+        row = i if on_left else shown - 1 - i
         y = first_label - row
         edge = 1 - 0.03 * (k - 1) if on_left else k + 0.03 * (k - 1)
         ax.plot([rank, rank, edge], [0, y, y], color=MUTED, lw=0.8, clip_on=False)
@@ -51,10 +64,15 @@ def draw(result, stem, title=None):
                 ha="right" if on_left else "left", va="center", fontsize=FONT, color=INK, clip_on=False)
     f = result.friedman
     caption = title or f"{result.metric}: average rank over {f.n_datasets} datasets (1 = best)"
-    verdict = (f"no significance claim (N < {MIN_DATASETS})" if not result.claims_allowed
-               else f"{f.decision_test} = {f.decision_p:.3g}")
-    test = (f"N = {f.n_datasets} datasets, k = {f.n_methods} methods; bars: {result.nemenyi.test} test, "
-            f"alpha = {result.alpha:g}; {verdict}")
+    if not result.claims_allowed:
+        verdict = note or f"no significance claim (N < {MIN_DATASETS}): no bars"
+    elif bars_shown:
+        verdict = f"bars: {result.nemenyi.test} test, alpha = {result.alpha:g}; {note or f'{f.decision_test} = {f.decision_p:.2g}'}"
+    else:
+        verdict = note or "the Friedman test does not reject: no bars"
+    test = f"N = {f.n_datasets} datasets, k = {f.n_methods} methods; {verdict}"
+    if shown < k:
+        test += f"; the best {shown} named, {k - shown} more as grey dots (see the table)"
     fig.text(0.5, 1 - 0.18 / height, caption, ha="center", va="top", fontsize=FONT + 1.5, color=INK, weight="bold")
     fig.text(0.5, 1 - 0.42 / height, test, ha="center", va="top", fontsize=FONT - 0.5, color=MUTED)
     paths = (f"{stem}.svg", f"{stem}.png")

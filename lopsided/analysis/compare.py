@@ -4,16 +4,14 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from ..errors import LopsidedError, unknown
+from ..errors import AnalysisError, unknown
 from . import bayes, posthoc
 from . import ranks as rankmod
+from .leaders import first_place_share, tied_first
 
 MISSING_POLICIES = ("drop-datasets", "drop-methods")
 MIN_DATASETS = 5   # our rule: below this no significance claim at all (see Comparison.no_claim_reason)
-
-
-class AnalysisError(LopsidedError):
-    """The score table cannot support a comparison."""
+BAYES_DRAWS = 70_000   # Monte Carlo standard error of a posterior probability <= 0.5 / sqrt(draws) = 0.0019
 
 
 @dataclass
@@ -29,13 +27,19 @@ class Comparison:
     nemenyi_alpha10: posthoc.CriticalDifference
     nemenyi_p: pd.DataFrame
     groups: list                      # lists of method names not significantly different
-    pairwise: list                    # dicts a, b, wilcoxon_p, holm_p, nemenyi_p, bayes
+    pairwise: list                    # dicts a, b, wilcoxon_p, holm_p, nemenyi_p, bayes (pairs with the best
+                                      # or the control only; None for the rest)
     control: str | None = None
     bonferroni_dunn: posthoc.CriticalDifference | None = None
     bonferroni_dunn_p: dict = field(default_factory=dict)
+    against_control: dict = field(default_factory=dict)   # method -> Wilcoxon p and Holm p over the k - 1
     dropped: list = field(default_factory=list)   # what the missing-cell policy removed
     missing_policy: str = "drop-datasets"
     datasets: list = field(default_factory=list)
+    scores: pd.DataFrame | None = None       # the complete datasets x methods table the ranks come from
+    first_place: pd.Series | None = None     # bootstrap probability of the best average rank (leaders.py)
+    leaders: list = field(default_factory=list)   # methods sharing the best average rank
+    bayes_draws: int = BAYES_DRAWS
 
     @property
     def methods(self):
@@ -83,11 +87,18 @@ class Comparison:
             "nemenyi": {"q_alpha": self.nemenyi.q_alpha, "cd": self.nemenyi.cd,
                         "alpha_0.10": {"q_alpha": self.nemenyi_alpha10.q_alpha, "cd": self.nemenyi_alpha10.cd}},
             "groups": self.groups,
+            "leaders": self.leaders,
+            "first_place_share": {} if self.first_place is None else
+                                       {m: float(v) for m, v in self.first_place.items()},
+            "bayes_draws": self.bayes_draws,
             "pairwise": self.pairwise,
         }
-        if self.control is not None:
+        if self.control is not None and self.bonferroni_dunn is not None:
             out["bonferroni_dunn"] = {"control": self.control, "q_alpha": self.bonferroni_dunn.q_alpha,
                                       "cd": self.bonferroni_dunn.cd, "p": self.bonferroni_dunn_p}
+            out["against_control"] = {"control": self.control, "test": "Wilcoxon signed-rank, Holm over the "
+                                      f"{len(self.against_control)} comparisons with the control",
+                                      "methods": self.against_control}
         return _finite(out)
 
 
@@ -121,8 +132,11 @@ def apply_missing_policy(matrix, policy):
 
 
 def compare(matrix, metric="score", higher_is_better=True, alpha=0.05, control=None, rope=0.01,
-            missing="drop-datasets", samples=4000, seed=0):
-    """Full comparison of the columns (methods) of ``matrix`` over its rows (datasets)."""
+            missing="drop-datasets", samples=BAYES_DRAWS, seed=0):
+    """Full comparison of the columns (methods) of ``matrix`` over its rows (datasets).
+
+    ``samples``: posterior draws of the Bayesian signed-rank test, which is computed for the pairs a
+    report speaks about: each method with the best, and with the control."""
     if not 0 < alpha < 1:
         raise AnalysisError(f"alpha={alpha} must lie between 0 and 1")
     if rope < 0:
@@ -142,6 +156,7 @@ def compare(matrix, metric="score", higher_is_better=True, alpha=0.05, control=N
     rank_table, table = rank_table[order], table[order]
     nemenyi = posthoc.nemenyi_cd(alpha, k, n)
     p_matrix = posthoc.nemenyi_p(mean_ranks.to_numpy(), n)
+    leaders = tied_first(mean_ranks)
     result = Comparison(
         metric=metric, higher_is_better=higher_is_better, alpha=alpha, rope=rope,
         average_ranks=mean_ranks,
@@ -150,18 +165,31 @@ def compare(matrix, metric="score", higher_is_better=True, alpha=0.05, control=N
         nemenyi=nemenyi, nemenyi_alpha10=posthoc.nemenyi_cd(0.10, k, n),
         nemenyi_p=pd.DataFrame(p_matrix, index=order, columns=order),
         groups=[[order[i] for i in run] for run in posthoc.cliques(mean_ranks.to_numpy(), nemenyi.cd)],
-        pairwise=_pairwise(table, higher_is_better, rope, p_matrix, samples, seed),
+        pairwise=_pairwise(table, higher_is_better, rope, p_matrix, samples, seed, {*leaders, control}),
         dropped=dropped, missing_policy=missing, datasets=[str(d) for d in table.index],
+        scores=table, first_place=first_place_share(rank_table, seed=seed), leaders=leaders,
+        bayes_draws=samples,
     )
     if control is not None:
         result.control = control
         result.bonferroni_dunn = posthoc.bonferroni_dunn_cd(alpha, k, n)
         p = posthoc.bonferroni_dunn_p(mean_ranks.to_numpy(), n, order.index(control))
         result.bonferroni_dunn_p = {m: float(v) for m, v in zip(order, p) if m != control}
+        result.against_control = _against_control(result.pairwise, control)
     return result
 
 
-def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed):
+def _against_control(pairwise, control):
+    """Every method's Wilcoxon p against the control, Holm-adjusted over those k - 1 comparisons (the
+    planned family of a comparison with a control; Demšar 2006, section 3.2.2; Benavoli et al. 2016)."""
+    raw = {p["b"] if p["a"] == control else p["a"]: p["wilcoxon_p"] for p in pairwise if control in (p["a"], p["b"])}
+    adjusted = posthoc.holm(list(raw.values()))
+    return {m: {"wilcoxon_p": w, "holm_p": float(h)} for (m, w), h in zip(raw.items(), adjusted)}
+
+
+def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed, focus):
+    """Every pair: Wilcoxon (Holm over all pairs) and Nemenyi p; the Bayesian signed-rank probabilities with
+    their Monte Carlo standard error for the pairs that involve a method of ``focus`` (leaders, control)."""
     oriented = table.to_numpy(dtype=float) * (1.0 if higher_is_better else -1.0)
     names = list(table.columns)
     pairs = posthoc.all_pairs(names)
@@ -170,8 +198,11 @@ def _pairwise(table, higher_is_better, rope, p_matrix, samples, seed):
     adjusted = posthoc.holm(wilcoxon)
     rows = []
     for (i, j), w, h in zip(pairs, wilcoxon, adjusted):
-        b = posterior(oriented[:, i], oriented[:, j], rope)
+        b = posterior(oriented[:, i], oriented[:, j], rope) if {names[i], names[j]} & focus else None
         rows.append({"a": names[i], "b": names[j], "wilcoxon_p": w, "holm_p": float(h),
                      "nemenyi_p": float(p_matrix[i, j]),
-                     "bayes": {"a_better": b.a_better, "equivalent": b.equivalent, "b_better": b.b_better}})
+                     "bayes": None if b is None else {
+                         "a_better": b.a_better, "equivalent": b.equivalent, "b_better": b.b_better,
+                         "standard_error": bayes.monte_carlo_error(max(b.a_better, b.equivalent, b.b_better,
+                                                                       key=lambda q: q * (1 - q)), samples)}})
     return rows

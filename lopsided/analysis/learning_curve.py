@@ -34,6 +34,11 @@ _GOLDEN_STEPS = 40         # shrinks the bracket around the best grid point by 0
 _PHI = (np.sqrt(5.0) - 1.0) / 2.0
 
 
+def power_law(a, b, c, x):
+    """y = (1 - a) - b x^c (Figueroa et al. 2012), broadcasting over arrays of parameters and counts."""
+    return (1.0 - a) - b * x ** c
+
+
 @dataclass(frozen=True)
 class CurveFit:
     """Fitted y(x) = (1 - a) - b x^c (Figueroa et al. 2012)."""
@@ -52,7 +57,7 @@ class CurveFit:
 
     def predict(self, sizes) -> np.ndarray:
         """Scores the curve gives at the minority counts ``sizes``."""
-        return 1.0 - self.a - self.b * np.asarray(sizes, dtype=float) ** self.c
+        return power_law(self.a, self.b, self.c, np.asarray(sizes, dtype=float))
 
 
 @dataclass(frozen=True)
@@ -63,6 +68,12 @@ class CurveBootstrap:
     b: np.ndarray
     c: np.ndarray
     seed: int
+
+    def band(self, sizes, percentiles: tuple[float, float] = (0.025, 0.975)) -> tuple[np.ndarray, np.ndarray]:
+        """The draws' curves at the minority counts ``sizes``: their lower and upper percentiles (a 95 % band)."""
+        draws = power_law(self.a[:, None], self.b[:, None], self.c[:, None], np.asarray(sizes, dtype=float)[None, :])
+        low, high = np.quantile(draws, list(percentiles), axis=0)
+        return low, high
 
 
 def _best_line(sy, syy, sz, szz, syz):
@@ -141,7 +152,7 @@ def _default_weights(x):
 
 
 def _finish(x, y, w, a, b, c):
-    residual = y - (1.0 - a - b * x ** c)
+    residual = y - power_law(a, b, c, x)
     return CurveFit(float(a), float(b), float(c), float(np.sqrt(np.sum(w * residual ** 2) / np.sum(w))),
                     float(x.min()), float(x.max()), len(x))
 

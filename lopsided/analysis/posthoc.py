@@ -8,7 +8,6 @@ Bonferroni-Dunn one is the two-sided normal quantile at alpha / (k - 1).
 Pairwise Wilcoxon signed-rank tests (Wilcoxon 1945) with Holm's step-down correction
 (Holm 1979) as recommended by Benavoli, Corani & Mangili (2016), JMLR 17:1-10.
 """
-import functools
 import itertools
 from dataclasses import dataclass
 
@@ -68,6 +67,9 @@ def bonferroni_dunn_p(mean_ranks, n, control):
     return p
 
 
+SCIPY_ALWAYS_ABOVE = 13   # scipy.stats.wilcoxon's default: a permutation test for ties or zeros only up to 13 pairs
+
+
 def holm(p_values):
     """Holm (1979) step-down adjusted p-values, in the input order."""
     p = np.asarray(p_values, dtype=float)
@@ -80,46 +82,24 @@ def holm(p_values):
 
 
 def wilcoxon_p(a, b):
-    """Two-sided Wilcoxon signed-rank p-value of paired scores (zeros dropped, Wilcoxon 1945).
+    """Two-sided Wilcoxon signed-rank p-value of paired scores (Wilcoxon 1945), as scipy.stats.wilcoxon
+    computes it by default (zeros dropped; exact, sign-flip permutation or normal approximation by scipy's
+    rule); 1.0 when every pair is equal, where scipy's statistic is undefined.
 
-    The choice of null distribution follows scipy.stats.wilcoxon's 'auto' rule, so the p-values
-    agree with it: exact when there are no ties or zeros and n <= 50; the exact sign-flip
-    permutation distribution when there are ties or zeros and n <= 13; otherwise the normal
-    approximation with tie correction and no continuity correction. 1.0 when every pair is equal.
-    """
+    With ties or zeros among at most 13 pairs scipy enumerates all 2^n sign flips through
+    scipy.stats.permutation_test with a statistic evaluated one flip at a time; the same call is made here with
+    the statistic vectorised (the ranks of |d| do not change under a sign flip, so R+ of a flip is the sum of
+    the fixed ranks where it is positive): the same p-value, hundreds of times faster."""
     d = np.asarray(a, dtype=float) - np.asarray(b, dtype=float)
-    nonzero = d[d != 0]
-    n = len(nonzero)
-    if n == 0:
+    if not np.any(d):
         return 1.0
-    ranks = stats.rankdata(np.abs(nonzero))
-    r_plus = float(ranks[nonzero > 0].sum())
-    _, tie_sizes = np.unique(np.abs(nonzero), return_counts=True)
-    has_ties, has_zeros = bool((tie_sizes > 1).any()), n < len(d)
-    if not (has_ties or has_zeros) and len(d) <= 50:
-        counts = _signed_rank_null(n)
-        total = counts.sum()
-        upper = counts[int(np.floor(r_plus)):].sum() / total
-        lower = counts[: int(np.ceil(r_plus)) + 1].sum() / total
-        return float(min(1.0, 2.0 * min(upper, lower)))
-    if len(d) <= 13:
-        signs = (np.arange(2 ** n)[:, None] >> np.arange(n)) & 1
-        null = signs @ ranks        # mid-ranks are multiples of 1/2: these sums are exact in floating point
-        lower, upper = np.mean(null <= r_plus), np.mean(null >= r_plus)
-        return float(min(1.0, 2.0 * min(lower, upper)))
-    mean = n * (n + 1) / 4.0
-    spread = np.sqrt((n * (n + 1) * (2 * n + 1) - np.sum(tie_sizes ** 3 - tie_sizes) / 2.0) / 24.0)
-    return float(2.0 * stats.norm.sf(abs(r_plus - mean) / spread))
-
-
-@functools.lru_cache(maxsize=64)
-def _signed_rank_null(n):
-    """Counts of each rank sum 0..n(n+1)/2 over all 2^n sign patterns (no ties)."""
-    counts = np.zeros(n * (n + 1) // 2 + 1)
-    counts[0] = 1.0
-    for rank in range(1, n + 1):
-        counts[rank:] = counts[rank:] + counts[:-rank].copy()
-    return counts
+    if len(d) > SCIPY_ALWAYS_ABOVE or (np.all(d != 0) and len(np.unique(np.abs(d))) == len(d)):
+        return float(stats.wilcoxon(d).pvalue)
+    ranks = np.zeros(len(d))                       # zeros are dropped: rank 0, and a flip keeps them 0
+    ranks[d != 0] = stats.rankdata(np.abs(d[d != 0]))
+    result = stats.permutation_test((d,), lambda x, axis: np.sum(ranks * (x > 0), axis=axis),
+                                    permutation_type="samples", vectorized=True, alternative="two-sided")
+    return float(result.pvalue)
 
 
 def cliques(mean_ranks, cd):
@@ -128,7 +108,7 @@ def cliques(mean_ranks, cd):
     Returns lists of positions into the rank-sorted order; single methods are not listed.
     """
     ranks = np.sort(np.asarray(mean_ranks, dtype=float))
-    runs = []
+    runs: list[tuple[int, int]] = []
     for start in range(len(ranks)):
         end = start
         while end + 1 < len(ranks) and ranks[end + 1] - ranks[start] < cd:

@@ -198,7 +198,7 @@ def compare_to_best(fold_scores: pd.DataFrame, n_train: float, n_test: float, ro
     rope : float
         Region of practical equivalence for the Bayesian correlated t-test, in score units.
     alpha : float
-        Significance level for the corrected resampled t-test, used by ``verdict``.
+        Significance level for the corrected resampled t-test, used by ``read_best_comparison``.
     higher_is_better : bool
         False for losses and error rates: the scores are negated before testing, so "best" is the lowest
         mean and every probability still reads "better" in the usual sense.
@@ -238,7 +238,7 @@ def compare_to_best(fold_scores: pd.DataFrame, n_train: float, n_test: float, ro
 
 
 @dataclass(frozen=True)
-class Verdict:
+class BestReading:
     """Plain-words reading of a BestComparison."""
     best: str
     equivalent: tuple[str, ...]           # P(equivalent to the best) >= level
@@ -248,7 +248,7 @@ class Verdict:
     sentences: tuple[str, ...]
 
 
-def verdict(comparison: BestComparison, level: float = DECISION_LEVEL) -> Verdict:
+def read_best_comparison(comparison: BestComparison, level: float = DECISION_LEVEL) -> BestReading:
     """Which methods are practically equivalent to the best, which practically worse, which undecided.
 
     Parameters
@@ -260,7 +260,7 @@ def verdict(comparison: BestComparison, level: float = DECISION_LEVEL) -> Verdic
 
     Returns
     -------
-    Verdict
+    BestReading
         The Bayesian correlated t-test with the comparison's rope decides "equivalent", "worse" and
         "undecided"; the corrected t-test (p < alpha) is listed separately: it says whether a difference
         exists, not whether it matters.
@@ -288,4 +288,4 @@ def verdict(comparison: BestComparison, level: float = DECISION_LEVEL) -> Verdic
         lines.append(f"No method differs from {c.best} by the corrected resampled t-test at p < {c.alpha:g}.")
     lines.append("These statements are about this one dataset: research evidence, not validation of a diagnostic "
                  "or safety method.")
-    return Verdict(c.best, equivalent, worse, undecided, significant, tuple(lines))
+    return BestReading(c.best, equivalent, worse, undecided, significant, tuple(lines))

@@ -1,6 +1,6 @@
 """Dataset adapters: one per reference scheme, all returning a `Dataset`.
 
-``ADAPTERS`` maps a scheme to (loader, one-line description with an example); ``DATASETS`` is their
+``ADAPTERS`` maps a scheme to its ``Builtin`` record (loader, one line with an example); ``DATASETS`` is their
 registry, which also reads the ``lopsided.datasets`` entry-point group (a plugin registers a loader
 for a new scheme). A loader takes a parsed `Reference` and returns a `Dataset` or raises `DatasetError`.
 """
@@ -8,25 +8,26 @@ from dataclasses import replace
 from functools import lru_cache
 from pathlib import Path
 
-from ..dataset import Dataset
 from ..errors import DatasetError
-from ..registry import Registry
+from ..registry import Builtin, Registry
 from ..specs import parse_reference
 from . import bundled, files, jcampdx, keel, measured, openml_source, spectra
+from .dataset import Dataset
 
-ADAPTERS = {
-    "sklearn": (bundled.load, "scikit-learn's bundled toy sets, one-vs-rest: sklearn:" + "|".join(bundled.LOADERS)
-                + "?positive=CLASS (smoke tests only)"),
-    "spectra": (spectra.load, "synthetic mid-infrared spectra with donors / particles: spectra:"
-                + "|".join(spectra.PRESETS) + "?ratio=10&seed=1"),
-    "file": (files.load, "your own table (CSV, TSV, Parquet, ARFF, KEEL .dat): "
-             "file:PATH.csv?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b&nominal=c,d]"),
-    "keel": (keel.load, "the KEEL imbalanced collection, keel:NAME (`lopsided datasets list --collection keel`), "
-             "or your own KEEL files, keel:PATH#NAME"),
-    "openml": (openml_source.load, "an OpenML dataset by integer id: openml:ID[?target=NAME&positive=CLASS]"),
-    "measured": (measured.load, "real infrared spectra shipped by a dependency: measured:coffee?positive=Vietnam&keep=6 "
-                 "(keep= induces the imbalance)"),
-    "jcamp": (jcampdx.load, "a folder of JCAMP-DX spectra with a label table: jcamp:FOLDER?labels=labels.csv&label=COLUMN"),
+ADAPTERS = {   # a data source is cited by what its reference names: report/citations.py SCHEMES
+    "sklearn": Builtin(bundled.load, "scikit-learn's bundled toy sets, one-vs-rest: sklearn:" + "|".join(bundled.LOADERS)
+                       + "?positive=CLASS (smoke tests only)"),
+    "spectra": Builtin(spectra.load, "synthetic mid-infrared spectra with donors / particles: spectra:"
+                       + "|".join(spectra.PRESETS) + "?ratio=10&seed=1"),
+    "file": Builtin(files.load, "your own table (CSV, TSV, Parquet, ARFF, KEEL .dat): "
+                    "file:PATH.csv?label=COLUMN[&group=COLUMN&positive=CLASS&drop=a,b&nominal=c,d]"),
+    "keel": Builtin(keel.load, "the KEEL imbalanced collection, keel:NAME (`lopsided datasets list --collection keel`), "
+                    "or your own KEEL files, keel:PATH#NAME"),
+    "openml": Builtin(openml_source.load, "an OpenML dataset by integer id: openml:ID[?target=NAME&positive=CLASS]"),
+    "measured": Builtin(measured.load, "real infrared spectra shipped by a dependency: "
+                        "measured:coffee?positive=Vietnam&keep=6 (keep= induces the imbalance)"),
+    "jcamp": Builtin(jcampdx.load, "a folder of JCAMP-DX spectra with a label table: "
+                     "jcamp:FOLDER?labels=labels.csv&label=COLUMN"),
 }
 DATASETS = Registry("dataset scheme", ADAPTERS, "lopsided.datasets", import_paths=False, error=DatasetError)
 

@@ -7,8 +7,8 @@ conclusions about methods.
 import numpy as np
 from sklearn import datasets as skdata
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
+from .dataset import Dataset, Provenance
 from .labels import encode
 from .params import Param, read_params
 

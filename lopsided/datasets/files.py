@@ -12,9 +12,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
 from .cache import file_sha256
+from .dataset import Dataset, Provenance
 from .keelformat import parse_keel
 from .labels import encode
 from .params import Param, read_params
@@ -119,8 +119,7 @@ def read_csv(path, sep=",", text_columns=()):
         with open(path, encoding="utf-8-sig", newline="") as handle:
             rows = csv.reader(handle, delimiter=sep)
             try:
-                header = next((row for row in rows if any(value.strip() for value in row)), None)
-                _check_header(path, header, sep)
+                header = _checked_header(path, next((row for row in rows if any(v.strip() for v in row)), None), sep)
                 for row in rows:
                     if len(row) != len(header) and any(value.strip() for value in row):
                         raise DatasetError(f"{path}: line {rows.line_num}: {_count(len(row), 'value')}, "
@@ -138,7 +137,8 @@ def read_csv(path, sep=",", text_columns=()):
         raise DatasetError(f"{path}: not a readable table ({one_line(exc)})") from None
 
 
-def _check_header(path, header, sep):
+def _checked_header(path, header: list[str] | None, sep) -> list[str]:
+    """The header line, or a DatasetError naming what is wrong with it."""
     if header is None:
         raise DatasetError(f"{path}: the file is empty (no header line)")
     if len(header) == 1 and ";" in header[0]:
@@ -152,6 +152,7 @@ def _check_header(path, header, sep):
         if name in seen:
             raise DatasetError(f"{path}: column {name!r} appears twice in the header; give each column its own name")
         seen.add(name)
+    return header
 
 
 def _count(n, word):

@@ -12,8 +12,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, did_you_mean
+from .dataset import Dataset, Provenance
 from .files import read_csv
 from .labels import encode
 from .params import Param, read_params
@@ -68,6 +68,8 @@ def load(ref):
     for column in ["file", values["label"], values["group"]]:
         if column is not None and column not in table.columns:
             raise DatasetError(f"{table_path}: no column {column!r}{did_you_mean(column, table.columns)}")
+    if table.empty:
+        raise DatasetError(f"{table_path}: lists no spectra")
     axis, rows, digest = None, [], hashlib.sha256()
     for name in table["file"]:
         path = folder / str(name)
@@ -89,5 +91,5 @@ def load(ref):
         groups=table[group].astype(str).to_numpy() if group else None, axis=axis,
         provenance=Provenance(source=str(folder), version=digest.hexdigest()[:16], family=folder.name,
                               note="JCAMP-DX spectra"),
-        feature_names=tuple(f"{v:g}" for v in axis),
+        feature_names=tuple(f"{v:g}" for v in np.asarray(axis)),
     )

@@ -18,9 +18,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ..dataset import Dataset, Provenance, duplicate_groups
 from ..errors import DatasetError, did_you_mean
 from .cache import DOWNLOADS, cache_dir, file_sha256, manifest
+from .dataset import Dataset, Provenance, duplicate_groups
 from .keelformat import parse_keel
 from .labels import encode
 from .params import Param, read_params
@@ -137,7 +137,8 @@ def load(ref):
         X, y, groups = X[first], y[first], None
         notes.append(f"removed {n_duplicates} duplicate rows")
     elif n_duplicates and duplicates == "group":
-        notes.append(f"{n_duplicates} duplicate rows kept together in one fold (grouped)")
+        notes.append(f"{n_duplicates} duplicate {'row' if n_duplicates == 1 else 'rows'} kept together in one "
+                         "fold (grouped)")
     else:
         groups = None
     collection = manifest("keel")["collection"]

@@ -4,15 +4,21 @@ coffee: 60 ATR-FTIR spectra of roasted coffee from three origins (Brasil, Ethiop
 as distributed with chemotools (``chemotools.datasets.load_coffee``). The file gives no wavenumber axis,
 so features are indexed by position. With ``positive`` the task is one-vs-rest; ``keep`` keeps only N
 spectra of the positive class (chosen at random with ``seed``): an imbalance induced by us, not measured.
+Whether some of the 60 spectra are repeated scans of one coffee sample cannot be known: chemotools'
+docstring, README and metadata (0.5) say only "coffee spectra from three different origins measured
+off-line using ATR-FTIR". They are used without groups, and the dataset card says so.
 """
 import numpy as np
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
+from .dataset import Dataset, Provenance
 from .labels import encode
 from .params import Param, read_params
 
 SETS = {"coffee": "60 ATR-FTIR spectra of coffee, 3 origins (chemotools)"}
+REPLICATES = ("measured spectra, used without groups: whether some are repeated scans of one coffee sample is not "
+              "documented by chemotools, so it cannot be known; if they are, grouped folds would be needed and "
+              "these scores may be optimistic")
 PARAMS = {"positive": Param(str, None, "the class to set against the rest"),
           "keep": Param(int, None, "keep only this many spectra of the positive class (an induced imbalance)"),
           "seed": Param(int, 0, "which spectra keep= keeps")}
@@ -28,7 +34,7 @@ def load(ref):
     raw = labels.iloc[:, 0].astype(str).to_numpy()
     positive = values["positive"]
     y, classes = encode(raw, positive, where=ref.text)
-    note = "measured spectra"
+    note = REPLICATES
     if values["keep"] is not None:
         if positive is None:
             raise DatasetError(f"{ref.text}: keep= needs positive= (which class to thin out)")
@@ -40,7 +46,7 @@ def load(ref):
         dropped = rng.choice(members, len(members) - keep, replace=False)
         rows = np.setdiff1d(np.arange(len(y)), dropped)
         X, y = X[rows], y[rows]
-        note = f"measured spectra; imbalance INDUCED by keeping {keep} of {len(members)} {positive} spectra"
+        note = f"{REPLICATES}; imbalance INDUCED by keeping {keep} of {len(members)} {positive} spectra"
     query = ",".join(f"{k}={v}" for k, v in sorted(ref.params.items()))
     return Dataset(
         name=f"coffee[{query}]" if query else "coffee",

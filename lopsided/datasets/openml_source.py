@@ -9,9 +9,9 @@ become integer codes (their category order). Version and md5 checksum are record
 import numpy as np
 import pandas as pd
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError
 from .cache import DOWNLOADS, cache_dir
+from .dataset import Dataset, Provenance
 from .labels import encode
 from .params import Param, read_params
 

@@ -16,14 +16,23 @@ Presets (scenarios of our own):
 
 Common parameters: ``seed``, ``snr`` (peak signal over noise sd), ``region`` (full | fingerprint),
 ``step`` (cm-1), ``water`` (strength of water-vapour-like lines, 0 = none).
+
+Same bytes on every machine (generator version ``GENERATOR_VERSION``): numpy's vectorised exp, log and
+power take CPU-specific code paths (AVX-512 among them) whose last bits differ, and BLAS matrix products
+sum in kernel-specific orders. So the generator uses only operations that IEEE 754 rounds correctly
+(+, -, *, /, in a fixed order: ``portable.weighted_sum`` instead of a matrix product) and the C library's
+scalar exp, log and pow, then rounds every value to a multiple of ``portable.QUANTUM`` (2^-24).
 """
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..dataset import Dataset, Provenance
 from ..errors import DatasetError, unknown
+from .dataset import Dataset, Provenance
 from .params import Param, read_params
+from .portable import exp, log, power, quantised, weighted_sum
+
+GENERATOR_VERSION = "2"   # 2: portable arithmetic and quantised values (1 used numpy's vectorised exp)
 
 
 @dataclass(frozen=True)
@@ -90,9 +99,10 @@ WATER_WINDOWS = ((1400.0, 1900.0, 60), (3500.0, 3950.0, 50))
 def pseudo_voigt(axis, centre, fwhm, eta):
     """Unit-height pseudo-Voigt profile (Ida, Ando & Toraya 2000)."""
     half = fwhm / 2.0
-    offset = axis - centre
-    lorentz = 1.0 / (1.0 + (offset / half) ** 2)
-    gauss = np.exp(-np.log(2.0) * (offset / half) ** 2)
+    u = (axis - centre) / half
+    squared = u * u
+    lorentz = 1.0 / (1.0 + squared)
+    gauss = exp(-log(2.0) * squared)
     return eta * lorentz + (1.0 - eta) * gauss
 
 
@@ -112,11 +122,12 @@ def _distort(pure, axis, group_of, rng, scatter=0.05, baseline=0.03):
     """Path length, baseline and scattering: group-level effects plus smaller replicate ones."""
     n_groups = group_of.max() + 1
     x = (axis - axis.min()) / (axis.max() - axis.min())
-    path = np.exp(rng.normal(0, 0.10, n_groups)[group_of] + rng.normal(0, 0.03, len(group_of)))
+    path = exp(rng.normal(0, 0.10, n_groups)[group_of] + rng.normal(0, 0.03, len(group_of)))
     coeffs = rng.normal(0, baseline, (n_groups, 3))[group_of] + rng.normal(0, baseline / 5, (len(group_of), 3))
-    curve = coeffs[:, :1] + coeffs[:, 1:2] * x + coeffs[:, 2:3] * x ** 2
-    strength = np.abs(rng.normal(scatter, scatter / 2, n_groups))[group_of] * np.exp(rng.normal(0, 0.1, len(group_of)))
-    scatter_term = strength[:, None] * (axis / axis.max()) ** 2
+    curve = coeffs[:, :1] + coeffs[:, 1:2] * x + coeffs[:, 2:3] * (x * x)
+    strength = np.abs(rng.normal(scatter, scatter / 2, n_groups))[group_of] * exp(rng.normal(0, 0.1, len(group_of)))
+    relative = axis / axis.max()
+    scatter_term = strength[:, None] * (relative * relative)
     return pure * path[:, None] + curve + scatter_term
 
 
@@ -129,7 +140,7 @@ def _water_lines(axis, n_spectra, strength, rng):
     """Sharp Lorentzian lines (FWHM 2 cm-1) at fixed random positions, amplitude varying per spectrum."""
     centres = np.concatenate([rng.uniform(lo, hi, n) for lo, hi, n in WATER_WINDOWS])
     heights = rng.exponential(1.0, len(centres))
-    comb = heights @ np.stack([pseudo_voigt(axis, c, 2.0, 1.0) for c in centres])
+    comb = weighted_sum(heights[None, :], np.stack([pseudo_voigt(axis, c, 2.0, 1.0) for c in centres]))[0]
     humidity = rng.exponential(strength, n_spectra)
     return humidity[:, None] * comb[None, :] / max(comb.max(), 1e-12)
 
@@ -162,7 +173,7 @@ def serum_amplitudes(params, rng):
     for index, direction in SERUM_EFFECT:
         shift[index] = effect * SERUM_DONOR_SD * direction
     group_of = np.repeat(np.arange(donors), replicates)
-    log_amp = (np.log([b.height for b in SERUM_BANDS])
+    log_amp = (log(np.array([b.height for b in SERUM_BANDS]))
                + donor_class[group_of][:, None] * shift
                + rng.normal(0, SERUM_DONOR_SD, (donors, len(SERUM_BANDS)))[group_of]
                + rng.normal(0, SERUM_REPLICATE_SD, (len(group_of), len(SERUM_BANDS))))
@@ -174,7 +185,7 @@ def serum(params):
     rng = np.random.default_rng(params["seed"])
     axis = wavenumbers(params["region"], params["step"])
     log_amp, labels, group_of = serum_amplitudes(params, rng)
-    pure = np.exp(log_amp) @ _shapes(axis, SERUM_BANDS)
+    pure = weighted_sum(exp(log_amp), _shapes(axis, SERUM_BANDS))
     X = _finish(pure, axis, group_of, params, rng, scatter=0.05, baseline=0.03)
     return X, labels, ("negative", "positive"), group_of, "donor"
 
@@ -184,7 +195,7 @@ def _finish(pure, axis, group_of, params, rng, scatter, baseline):
     spectra = _distort(pure, axis, group_of, rng, scatter=scatter, baseline=baseline)
     if params["water"] > 0:
         spectra = spectra + _water_lines(axis, len(spectra), 0.05 * params["water"], rng)
-    return _noise(spectra, params["snr"], rng)
+    return quantised(_noise(spectra, params["snr"], rng))
 
 
 def polymers(params):
@@ -195,7 +206,7 @@ def polymers(params):
         raise DatasetError(f"spectra:polymers: ratio={ratio} must be at least 1 (most over least abundant)")
     axis = wavenumbers(params["region"], params["step"])
     k = len(POLYMER_ABUNDANCE_ORDER)
-    shares = ratio ** (-np.arange(k) / (k - 1))          # geometric long tail: most / least abundant = ratio
+    shares = power(ratio, -np.arange(k) / (k - 1))       # geometric long tail: most / least abundant = ratio
     if params["shares"] is not None:
         try:
             shares = np.array([float(v) for v in params["shares"].split(",")])
@@ -207,18 +218,19 @@ def polymers(params):
     particle_class = np.repeat(np.arange(k), _groups_per_class(particles, shares))
     group_of = np.repeat(np.arange(particles), per_particle)
     pure = np.zeros((len(group_of), len(axis)))
-    particle_amp = np.exp(rng.normal(0, 0.2, (particles, 8)))
+    particle_amp = exp(rng.normal(0, 0.2, (particles, 8)))
     for code, polymer in enumerate(POLYMER_ABUNDANCE_ORDER):
         rows = np.flatnonzero(particle_class[group_of] == code)
         bands = [Band(c, 16 if c > 2500 else 12, h, 0.5, polymer) for c, h in POLYMER_BANDS[polymer]]
         amps = np.array([b.height for b in bands]) * particle_amp[group_of[rows], : len(bands)]
-        amps *= np.exp(rng.normal(0, 0.05, amps.shape))
-        pure[rows] = amps @ _shapes(axis, bands)
+        amps *= exp(rng.normal(0, 0.05, amps.shape))
+        pure[rows] = weighted_sum(amps, _shapes(axis, bands))
     pure = _admix(pure, particle_class, group_of, params["purity"], rng)
     oxidation = rng.exponential(0.15 * weathering, particles)[group_of]
     biofilm = rng.exponential(0.1 * weathering, particles)[group_of]
     pure += oxidation[:, None] * _shapes(axis, [CARBONYL_WEATHERING])[0]
-    pure += biofilm[:, None] * (np.array([b.height for b in BIOFILM_BANDS]) @ _shapes(axis, BIOFILM_BANDS))
+    biofilm_shape = weighted_sum(np.array([[b.height for b in BIOFILM_BANDS]]), _shapes(axis, BIOFILM_BANDS))[0]
+    pure += biofilm[:, None] * biofilm_shape
     X = _finish(pure, axis, group_of, params, rng, scatter=0.15, baseline=0.06)
     return X, particle_class[group_of], POLYMER_ABUNDANCE_ORDER, group_of, "particle"
 
@@ -291,6 +303,7 @@ def load(ref):
             raise DatasetError(f"{ref.text}: {unknown('class', positive, classes)}")
         y, classes = (y == classes.index(positive)).astype(np.int64), (f"not {positive}", positive)
     query = ",".join(f"{k}={v}" for k, v in sorted(ref.params.items()))
+    recipe = f"spectra:{ref.body} generator {GENERATOR_VERSION}?" + "&".join(f"{k}={v!r}" for k, v in sorted(params.items()))
     return Dataset(
         name=f"{ref.body}[{query}]" if query else ref.body,
         X=X,
@@ -300,11 +313,12 @@ def load(ref):
         axis=axis,
         provenance=Provenance(
             source=f"lopsided synthetic spectra, preset {ref.body!r}",
-            version="1",
+            version=GENERATOR_VERSION,
             citation="synthetic; band positions from the tables named in lopsided/datasets/spectra.py",
             licence="generated data, no restriction",
             family=f"spectra-{ref.body}",
             note=summary,
         ),
         feature_names=tuple(f"{w:g}" for w in axis),
+        recipe=recipe,
     )

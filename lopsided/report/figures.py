@@ -10,6 +10,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 from matplotlib.ticker import NullFormatter
 
+from ..methods.metrics import metric_name
 from ..records import point_label
 
 # Our palette: every pair at least 13 CIE76 units apart in normal vision and under simulated deuteranopia
@@ -66,7 +67,7 @@ def sweep(scores, metric, axis, fixed, values, order, stem):
     for ax, learner in zip(axes, learners):
         _panel(ax, rows[rows["learner"] == learner], axis, values, place, order)
         ax.set_title(learner, fontsize=10)
-    axes[0].set_ylabel(f"{metric} (mean of {len(kept)} datasets)")
+    axes[0].set_ylabel(f"{metric_name(metric)} (mean of {len(kept)} datasets)")
     axes[-1].legend(loc="center left", bbox_to_anchor=(1.02, 0.5), frameon=False, fontsize=8)
     fig.suptitle(f"{metric} against training {axis} ({other} = {fixed}); same {len(kept)} datasets at every point; "
                  "band: +/- 1 standard error over datasets", fontsize=9.5, y=1.02)

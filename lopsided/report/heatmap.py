@@ -32,7 +32,7 @@ def draw_rank_map(ranks, row_labels, stem, title):
     top_in = max(len(str(c)) for c in ranks.columns) * CHAR + 0.5
     width, height = label_in + CELL * n_cols + 1.3, top_in + CELL * n_rows + 0.35
     fig = Figure(figsize=(width, height))
-    ax = fig.add_axes([label_in / width, 0.2 / height, CELL * n_cols / width, CELL * n_rows / height])
+    ax = fig.add_axes((label_in / width, 0.2 / height, CELL * n_cols / width, CELL * n_rows / height))
     values = np.ma.masked_invalid(ranks.to_numpy(dtype=float))
     ramp = RAMP.with_extremes(bad=MISSING)
     image = ax.imshow(values, cmap=ramp, vmin=1, vmax=max(n_cols, 2), aspect="auto", interpolation="nearest")
@@ -47,8 +47,8 @@ def draw_rank_map(ranks, row_labels, stem, title):
             if np.isfinite(rank):
                 ax.text(col, row, f"{rank:g}", ha="center", va="center", fontsize=6.5,
                         color="white" if _luminance(ramp(image.norm(rank))) < WHITE_BELOW else INK)
-    bar = fig.add_axes([(label_in + CELL * n_cols + 0.25) / width, 0.2 / height, 0.14 / width,
-                        CELL * n_rows / height])
+    bar = fig.add_axes(((label_in + CELL * n_cols + 0.25) / width, 0.2 / height, 0.14 / width,
+                        CELL * n_rows / height))
     scale = fig.colorbar(image, cax=bar)
     scale.ax.invert_yaxis()
     scale.set_label("rank on the dataset (1 = best)", fontsize=8)

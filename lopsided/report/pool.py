@@ -9,7 +9,7 @@ from concurrent.futures import Future, ProcessPoolExecutor
 from contextlib import contextmanager
 from multiprocessing import get_context
 
-from ..backends.processes import die_with_parent, start_method
+from ..execution.backends.processes import die_with_parent, start_method
 
 
 def usable_cores():
@@ -19,7 +19,7 @@ def usable_cores():
 
 def run_now(function, *args):
     """``function(*args)`` run here, as an already finished Future (exceptions kept for .result())."""
-    future = Future()
+    future: Future = Future()
     try:
         future.set_result(function(*args))
     except Exception as exc:  # re-raised by future.result(), as a pool would

@@ -1,29 +1,25 @@
-"""The leaderboard site: a table of pages (output file -> template -> context builder) and the writer.
+"""The leaderboard site: a table of pages (output file -> template -> what it adds to the board) and the writer.
 
-Every page extends ``base.html.j2`` and receives the report context (see ``write_report``) plus what its
-builder returns; adding a page is one ``Page`` entry and one template. The folder is self-contained: the
-stylesheet and script in ``static/`` are copied beside the pages, figures are our own SVG files inlined
-with a link to their SVG and PNG files, and nothing is fetched from elsewhere.
-
-Significance groups use the compact letter display of Piepho (2004, Journal of Computational and
-Graphical Statistics 13(2); from memory): methods that share a letter are not separated by the Nemenyi
-test (Demšar 2006, section 3.2.2), shown only when the Friedman test rejects (Demšar's procedure) and
-the comparison has at least ``MIN_DATASETS`` datasets.
+Every page extends ``base.html.j2`` and receives the ``Board`` as ``b`` plus what its builder returns; adding a
+page is one ``Page`` entry and one template. The Overview opens with the answer per learner; the comparisons
+live on one page per protocol point (a selector links them), so no page carries every figure. The folder is
+self-contained: the stylesheet and script in ``static/`` are copied beside the pages, figures are our own
+SVG files (linked with their PNG), and nothing is fetched from elsewhere.
 """
 import shutil
-import string
 from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
+from itertools import groupby
 from pathlib import Path
 
 import numpy as np
 
-from .. import learners as learner_registry
-from .. import resamplers as resampler_registry
-from ..analysis.compare import MIN_DATASETS
-from .citations import LEARNERS, RESAMPLERS
-from .tables import COMBINED, method_matrix, points_of
+from ..injected import FIXED
+from ..methods import learners, resamplers
+from ..methods.metrics import metric_name
+from .citations import ENTRIES, formatted, short_reference
+from .tables import COMBINED, method_matrix
 from .winners import band_of
 
 STATIC = ("site.css", "site.js")
@@ -36,140 +32,44 @@ class Page:
     file: str
     template: str
     title: str
-    build: Callable[[dict], dict]
-    shown: Callable[[dict], bool] = lambda ctx: True     # pages only some folders have (e.g. `lopsided try`)
+    build: Callable = lambda board: {}
+    shown: Callable = lambda board: True     # pages only some folders have (e.g. `lopsided try`)
+    menu: bool = True                        # False: reached from another page (the other protocol points)
 
 
-def group_letters(result):
-    """{method: letters} of the Nemenyi groups (compact letter display), or {} when no claim is allowed.
-
-    A rejected Friedman test is required first; when it does not reject, every method shares 'a'.
-    Groups are the CD-plot bars (``Comparison.groups``) plus a group of its own for a method in no bar.
-    """
-    if not result.claims_allowed:
-        return {}
-    methods = result.methods
-    if result.friedman.decision_p >= result.alpha:
-        return {m: "a" for m in methods}
-    grouped = {m for group in result.groups for m in group}
-    groups = sorted([*result.groups, *([m] for m in methods if m not in grouped)], key=lambda g: methods.index(g[0]))
-    letters = {m: "" for m in methods}
-    for i, group in enumerate(groups):
-        letter = string.ascii_lowercase[i % 26] + (str(i // 26) if i >= 26 else "")
-        for method in group:
-            letters[method] += letter
-    return letters
+ROWS_AT_MOST = 400    # a larger board lists each dataset's best few combinations (scores.csv has all)
+TOP_PER_DATASET = 5
 
 
-def top_group(result):
-    """Methods the Nemenyi test cannot separate from the best (the best included), in rank order;
-    every method when the Friedman test does not reject; [] when no claim is allowed."""
-    letters = group_letters(result)
-    if not letters:
-        return []
-    best = set(letters[result.methods[0]])
-    return [m for m in result.methods if best & set(letters[m])]
-
-
-LIST_AT_MOST = 4   # longer lists of tied methods are counted, not spelled out, in the verdict
-
-
-def _first_place(best, tied, lower=None):
-    """'best ranks first' with the methods not separated from it, listed when few, counted when many;
-    ``lower`` (the others), when known, is named instead when it is the shorter list."""
-    if not tied:
-        return f"{best} ranks first, separated by the Nemenyi test from every other method."
-    if len(tied) <= LIST_AT_MOST:
-        return f"{best} ranks first; not separated from it by the Nemenyi test: {', '.join(tied)}."
-    others = f" of the {len(tied) + len(lower)}" if lower is not None else ""
-    text = f"{best} ranks first, but {len(tied)}{others} others are not separated from it by the Nemenyi test"
-    if lower is not None and len(lower) <= LIST_AT_MOST:
-        return text + (f"; only {', '.join(lower)} rank significantly lower." if lower else ".")
-    return text + "."
-
-
-def verdict(main, winners, alpha):
-    """Plain sentences: the overall headline comparison, then one per imbalance band and training size."""
-    lines = []
-    if main is None:
-        lines.append("No comparison of all combinations could be made (see the sections below for the reason).")
-    else:
-        result, n = main["result"], main["result"].friedman.n_datasets
-        where = f"Overall ({main['metric']} at {main['point']}, {n} datasets): "
-        if not result.claims_allowed:
-            lines.append(f"{where}no method can be called better than another with fewer than {MIN_DATASETS} "
-                         "datasets; the table only describes these datasets.")
-        elif result.friedman.decision_p >= alpha:
-            lines.append(f"{where}the Friedman test finds no significant difference among the "
-                         f"{len(result.methods)} combinations (p = {result.friedman.decision_p:.3g}), so there is "
-                         "no winner.")
-        else:
-            top = top_group(result)
-            lower = [m for m in result.methods if m not in top]
-            lines.append(where + _first_place(top[0], top[1:], lower))
-    for w in winners:
-        head = f"{w['by'].capitalize()} {w['band']} ({w['point']}, {w['n']} datasets): "
-        if w["p"] is not None and w["p"] < alpha and w["n"] >= MIN_DATASETS:
-            lines.append(head + _first_place(w["best"], w["tied"]))
-        else:
-            lines.append(head + w["claim"] + ".")
-    return lines
-
-
-def _main_section(sections, metric):
-    """The all-combinations comparison of ``metric`` at the first protocol point (None if it failed)."""
-    first = next((s for s in sections if s["metric"] == metric and s["learner"] is None), None)
-    return first if first is not None and "result" in first else None
-
-
-def _by_point(sections):
-    """Sections grouped by metric and protocol point, in order: [{"metric", "point", "sections"}]."""
-    groups = {}
-    for s in sections:
-        groups.setdefault((s["metric"], s["point"]), []).append(s)
-    return [{"metric": m, "point": p, "sections": group} for (m, p), group in groups.items()]
-
-
-def overview(ctx):
-    headline = ctx["suite"]["metrics"][0]
-    main = _main_section(ctx["sections"], headline)
-    return {"headline": headline, "main": main, "verdict": verdict(main, ctx["winners"], ctx["alpha"]),
-            "points": _by_point([s for s in ctx["sections"] if s["metric"] == headline])}
-
-
-def other_metrics(ctx):
-    headline = ctx["suite"]["metrics"][0]
-    return {"points": _by_point([s for s in ctx["sections"] if s["metric"] != headline])}
-
-
-def sweeps(ctx):
-    metrics = {}
-    for f in ctx["sweeps"]:
-        metrics.setdefault(f["metric"], []).append(f)
-    return {"metrics": [{"metric": m, "figures": figures} for m, figures in metrics.items()]}
-
-
-def score_rows(scores, suite, imbalance):
-    """Every dataset x combination at the first protocol point: band, rank on the dataset (headline
-    metric, among all combinations) and mean +/- sd of each suite metric; datasets by imbalance ratio."""
-    points = points_of(scores, suite["protocol"])
-    if not points:
-        return []
-    (ratio, size), metrics = points[0], suite["metrics"]
-    ranks = method_matrix(scores, metrics[0], ratio, size).rank(axis=1, ascending=False, method="average")
+def score_rows(board):
+    """Every dataset x combination at the primary point: band, rank on the dataset (primary metric, among all
+    combinations) and mean +/- sd of each suite metric; datasets by imbalance ratio. Above ROWS_AT_MOST rows,
+    each dataset's best ``top`` (at most TOP_PER_DATASET, fewer when there are many datasets; among tied
+    combinations the first in scores.csv's order), so every dataset keeps its rows and the page stays light."""
+    primary, scores = board.primary, board.scores
+    if primary is None:
+        return {"rows": [], "all_rows": True, "top": None}
+    ratio, size, metrics = primary.ratio, primary.size, board.suite.metrics
+    ranks = method_matrix(scores, primary.metric, ratio, size).rank(axis=1, ascending=False, method="average")
     rows = scores[(scores["ratio"] == ratio) & (scores["size"] == size)]
+    names = board.short
     out = []
     for r in rows.to_dict("records"):
         key = r["resampler"] + COMBINED + r["learner"]
         rank = ranks.loc[r["dataset"], key] if r["dataset"] in ranks.index and key in ranks.columns else np.nan
-        ir = imbalance.get(r["dataset"])
-        out.append({"dataset": r["dataset"], "ratio": ir, "band": band_of(ir) if ir is not None else "",
-                    "resampler": r["resampler"], "learner": r["learner"], "failed": int(r["n_failed"]),
-                    "cells": int(r["n_cells"]), "rank": None if np.isnan(rank) else float(rank),
+        ir = board.imbalance.get(r["dataset"])
+        out.append({"dataset": r["dataset"], "name": names.get(r["dataset"], r["dataset"]), "ratio": ir,
+                    "band": band_of(ir) if ir is not None else "", "resampler": r["resampler"],
+                    "learner": r["learner"], "failed": int(r["n_failed"]), "cells": int(r["n_cells"]),
+                    "rank": None if np.isnan(rank) else float(rank),
                     "scores": [(_number(r.get(f"{m}_mean")), _number(r.get(f"{m}_std"))) for m in metrics]})
     out.sort(key=lambda x: (x["ratio"] if x["ratio"] is not None else float("inf"), x["dataset"],
                             x["rank"] if x["rank"] is not None else float("inf")))
-    return out
+    if len(out) <= ROWS_AT_MOST:
+        return {"rows": out, "all_rows": True, "top": None}
+    top = min(TOP_PER_DATASET, max(1, ROWS_AT_MOST // len({r["dataset"] for r in out})))
+    kept = [r for _, rows_of_one in groupby(out, key=lambda x: x["dataset"]) for r in list(rows_of_one)[:top]]
+    return {"rows": kept, "all_rows": False, "top": top}
 
 
 def _number(value):
@@ -177,17 +77,14 @@ def _number(value):
     return None if value is None or np.isnan(value) else float(value)
 
 
-def rank_map(ctx):
-    return {"rows": score_rows(ctx["scores"], ctx["suite"], ctx["imbalance"])}
-
-
-def dataset_cards(ctx):
+def dataset_cards(board):
     """One card per dataset, by imbalance ratio, with its band and the points skipped on it."""
-    skipped = {}
-    for s in ctx["skipped"]:
-        skipped.setdefault(s["dataset"], []).append(s)
-    cards = [{**d, "band": band_of(d["imbalance_ratio"]), "skipped": skipped.get(d["reference"], [])}
-             for d in ctx["summary"].get("datasets", [])]
+    skipped: dict[str, list] = {}
+    for s in board.skipped:
+        skipped.setdefault(s.dataset, []).append(s)
+    names = board.short
+    cards = [{**d.as_json(), "short": names.get(d.reference, d.reference), "band": band_of(d.imbalance_ratio),
+              "skipped": skipped.get(d.reference, [])} for d in board.summary.datasets]
     return {"cards": sorted(cards, key=lambda d: (d["imbalance_ratio"], d["reference"]))}
 
 
@@ -198,61 +95,100 @@ def _origin(name, listings):
     return "import path" if ":" in name else "unknown"
 
 
-def method_cards(ctx):
-    """One card per resampler and learner: description, parameters, origin, papers, failed cells."""
-    origins = {(m["kind"], m["label"]): m for m in ctx["methods"]}
+def method_cards(board):
+    """One card per resampler and learner: description, the parameters it ran with (defaults filled in from its
+    signature), origin, papers (linked to their references), failed cells."""
+    origins = {(m.kind, m.label): m for m in board.summary.methods}
     cards = []
-    for kind, registry, papers in (("resampler", resampler_registry, RESAMPLERS),
-                                   ("learner", learner_registry, LEARNERS)):
+    for kind, registry in (("resampler", resamplers.REGISTRY), ("learner", learners.REGISTRY)):
         listings = {row.name: row for row in registry.describe()}
-        for spec in ctx["suite"][f"{kind}s"]:
-            label, name = spec["label"], spec["name"]
+        for spec in getattr(board.suite, f"{kind}s"):
+            label, name = spec.title, spec.name
             listing = listings.get(name)
             cards.append({
-                "kind": kind, "label": label, "name": name, "params": spec["params"],
+                "kind": kind, "label": label, "name": name, "given": spec.params,
+                "params": ran_with(registry, name, spec.params),
                 "text": listing.text if listing else "not a registered name: loaded from its import path",
-                "source": _origin(name, listings), "entry": origins.get((kind, label), {}),
-                "papers": papers.get(name, ()),
-                "failures": [f for f in ctx["failures"] if f[kind] == label],
-                "warnings": [f for f in ctx["warnings"] if f[kind] == label]})
+                "source": _origin(name, listings), "entry": origins.get((kind, label)),
+                "papers": [(key, short_reference(ENTRIES[key]), formatted(ENTRIES[key]))
+                           for key in registry.citations(name) or ()],
+                "failures": [f for f in board.failures if f[kind] == label],
+                "warnings": [f for f in board.warnings if f[kind] == label]})
     return {"cards": cards}
 
 
-def run_page(ctx):
-    summary = ctx["summary"]
-    return {"versions": sorted((summary.get("versions") or {}).items()), "cells": summary.get("cells", {})}
+def ran_with(registry, name, given):
+    """{parameter: value} the method ran with: its factory's defaults, then what the suite gave (None when the
+    factory cannot be inspected). The runner's own (``injected.FIXED``: random_state, the cell's seed) are left
+    out."""
+    import inspect
+    try:
+        factory = registry.resolve(name)
+        signature = inspect.signature(factory)
+    except Exception:   # an import path that no longer resolves: show what the suite gave
+        return dict(given)
+    fixed = getattr(factory, "keywords", {}) or {}
+    defaults = {p.name: p.default for p in signature.parameters.values()
+                if p.default is not inspect.Parameter.empty and p.name not in FIXED}
+    return {**{k: v for k, v in defaults.items() if k not in fixed}, **fixed, **given}
 
 
-def cite_page(ctx):
-    return {}
+def point_page(point):
+    return lambda board: {"point": point}
 
 
-def try_page(ctx):
-    return {"t": ctx["summary"]["tryout"]}
+def cite_page(board):
+    from .citations import formatted_block
+    return {"references": formatted_block(board.citation)}
 
 
-PAGES = (
-    Page("index.html", "overview.html.j2", "Overview", overview),
-    Page("try.html", "try.html.j2", "Your dataset", try_page, shown=lambda ctx: bool(ctx["summary"].get("tryout"))),
-    Page("metrics.html", "metrics.html.j2", "Other metrics", other_metrics),
-    Page("sweeps.html", "sweeps.html.j2", "Sweeps", sweeps),
-    Page("ranks.html", "ranks.html.j2", "Rank map", rank_map),
-    Page("datasets.html", "datasets.html.j2", "Datasets", dataset_cards),
-    Page("methods.html", "methods.html.j2", "Methods", method_cards),
-    Page("run.html", "run.html.j2", "Run", run_page),
-    Page("cite.html", "cite.html.j2", "How to cite", cite_page),
-)
+def pages(board):
+    """The pages this board has, in menu order."""
+    found = [Page("index.html", "overview.html.j2", "Overview")]
+    if board.tryout is not None:
+        found.append(Page("try.html", "try.html.j2", "Your dataset", lambda b: {"t": b.tryout}))
+    for i, point in enumerate(board.points):
+        found.append(Page(point.file, "point.html.j2", "Comparisons" if i == 0 else f"{metric_name(point.metric)} at {point.title}",
+                          point_page(point), menu=i == 0))
+    if board.winners:
+        found.append(Page("where.html", "where.html.j2", "Bands and sizes"))
+    for i, table in enumerate(board.per_dataset):
+        found.append(Page(f"per-dataset-{i + 1}.html", "per_dataset.html.j2", "Per dataset" if i == 0 else
+                          f"Per dataset with {table['learner']}", lambda b, t=table: {"t": t}, menu=i == 0))
+    if any(s.figure for s in board.sweeps):
+        found.append(Page("sweeps.html", "sweeps.html.j2", "Sweeps", sweep_groups))
+    found += [Page("ranks.html", "ranks.html.j2", "Rank map", score_rows),
+              Page("datasets.html", "datasets.html.j2", "Datasets", dataset_cards),
+              Page("methods.html", "methods.html.j2", "Methods", method_cards),
+              Page("run.html", "run.html.j2", "Run", run_page),
+              Page("cite.html", "cite.html.j2", "How to cite", cite_page)]
+    return found
 
 
-def write_site(env, folder, ctx, pages=PAGES):
-    """Render every page into ``folder`` and copy the static files into ``folder``/static."""
+def sweep_groups(board):
+    metrics: dict[str, list] = {}
+    for f in board.sweeps:
+        if f.figure:
+            metrics.setdefault(f.metric, []).append(f)
+    return {"metrics": [{"metric": m, "figures": figures} for m, figures in metrics.items()]}
+
+
+def run_page(board):
+    return {"versions": sorted(board.summary.versions.items()), "cells": board.summary.cells}
+
+
+def write_site(env, folder, board, chosen=None):
+    """Render every page (or the ``chosen`` ones) into ``folder`` and copy the static files into
+    ``folder``/static."""
     folder = Path(folder)
     (folder / "static").mkdir(exist_ok=True)
     for name in STATIC:
         with resources.as_file(resources.files("lopsided.report") / "static" / name) as path:
             shutil.copyfile(path, folder / "static" / name)
-    pages = [p for p in pages if p.shown(ctx)]
-    menu = [(p.file, p.title) for p in pages]
-    for page in pages:
-        text = env.get_template(page.template).render(**ctx, **page.build(ctx), page=page, menu=menu)
+    found = [p for p in (pages(board) if chosen is None else chosen) if p.shown(board)]
+    menu = [(p.file, p.title) for p in found if p.menu]
+    points = [(p.file, p.title) for p in found if p.template == "point.html.j2"]
+    for page in found:
+        text = env.get_template(page.template).render(b=board, **page.build(board), page=page, menu=menu,
+                                                      point_menu=points)
         (folder / page.file).write_text(text, encoding="utf-8")

@@ -2,7 +2,7 @@
 import numpy as np
 import pandas as pd
 
-from ..metrics import METRICS
+from ..methods.metrics import METRICS
 from ..records import point_label
 
 KEYS = ["dataset", "ratio", "size", "resampler", "learner"]
@@ -24,8 +24,22 @@ def with_titles(cells, titles):
     return out
 
 
+DIGITS = 8   # significant digits of every number in scores.csv and cells.csv
+
+
+def published(values):
+    """Values rounded to the DIGITS significant digits the CSV files carry ('%.8g'), so that every statistic
+    computed from them is the one anyone recomputes from scores.csv: scores equal at that precision tie."""
+    array = np.asarray(values, dtype=float)
+    finite = np.isfinite(array)
+    out = array.copy()
+    out[finite] = np.char.mod(f"%.{DIGITS}g", array[finite]).astype(float)
+    return out
+
+
 def scores_table(cells):
-    """One row per dataset x point x resampler x learner: mean and std over repeats and folds (ok cells)."""
+    """One row per dataset x point x resampler x learner: mean and std over repeats and folds (ok cells),
+    rounded as scores.csv publishes them (``published``)."""
     if cells.empty:
         return pd.DataFrame(columns=KEYS + ["n_cells", "n_failed"])
     metrics = metric_columns(cells) + ["resample_seconds", "fit_seconds", "predict_seconds"]
@@ -33,6 +47,7 @@ def scores_table(cells):
     grouped = ok.groupby(KEYS, sort=True)[metrics]
     stats = grouped.agg(["mean", "std"])
     stats.columns = [f"{m}_{s}" for m, s in stats.columns]
+    stats = stats.apply(published)
     counts = cells.groupby(KEYS, sort=True)["status"].agg(n_cells="size", n_failed=lambda s: int((s != "ok").sum()))
     return counts.join(stats, how="left").reset_index()
 
@@ -54,9 +69,9 @@ def method_matrix(scores, metric, ratio, size, learner=None):
 
 
 def points_of(scores, protocol):
-    """Protocol points that have scores, in the suite's order."""
+    """Points of the ``protocol`` (planning.suite.Protocol) that have scores, in the suite's order."""
     present = set(zip(scores["ratio"], scores["size"]))
-    points = [(point_label(r), point_label(s)) for r in protocol["ratios"] for s in protocol["sizes"]]
+    points = [(point_label(r), point_label(s)) for r, s in protocol.points]
     return [p for p in points if p in present]
 
 

@@ -1,20 +1,23 @@
-"""Who wins where: the headline comparison within imbalance-ratio bands and at each training size.
+"""Who leads where: the headline comparison within imbalance-ratio bands, at each training ratio and at each
+training size (all combinations).
 
-Bands of the training imbalance ratio (majority:minority): IR < 3, 3 <= IR < 9 and IR >= 9, the low /
-medium / high grouping of the KEEL imbalanced-data studies (Fernández, García, del Jesus & Herrera
-2008, Fuzzy Sets and Systems 159(18); from memory). At the 'natural' point a dataset's band is its own
-imbalance ratio; at a set ratio every dataset is cut to that ratio, so the whole point falls in one
-band. Each row is its own Friedman comparison over independent datasets (a dataset appears at most
-once per row); rows are not pooled, since one dataset at two ratios is not two datasets.
+Bands of the natural imbalance ratio (majority:minority): IR < 3, 3 <= IR < 9 and IR >= 9, the low / medium
+/ high grouping of the KEEL imbalanced-data studies (Fernández, García, del Jesus & Herrera 2008, Fuzzy Sets
+and Systems 159(18); from memory). Only the natural point is split by band: there each dataset keeps its own
+ratio, and a band holds *other datasets* than the next band, so a difference between bands is not an effect
+of the imbalance ratio alone. At a set training ratio every dataset is cut to that ratio: such a row is
+labelled by the ratio, never by a band. Rows at set ratios and sizes are the leaderboard's own comparisons of
+those points (no test is repeated), each at the size (or ratio) where the most datasets are complete; band rows are comparisons of their own, adjusted with the others.
 """
 import math
 
-from ..analysis import AnalysisError, compare
-from ..analysis.compare import MIN_DATASETS
 from ..records import point_label
-from .tables import method_matrix
+from .findings import Spec
+from .tables import points_of
 
 BANDS = ((1.0, 3.0, "IR < 3"), (3.0, 9.0, "3 <= IR < 9"), (9.0, math.inf, "IR >= 9"))
+BAND_NOTE = ("Bands hold different datasets: a difference between bands is not an effect of the imbalance ratio "
+             "alone (the datasets differ in other ways too).")
 
 
 def band_of(ratio):
@@ -22,50 +25,48 @@ def band_of(ratio):
     return next(label for low, high, label in BANDS if low <= ratio < high) if ratio >= 1 else BANDS[0][2]
 
 
-def winner_rows(scores, suite, meta, alpha=0.05, rope=0.01):
-    """Rows {by, band, point, n, best, tied, p, test, claim} for the headline metric, all combinations.
+def band_specs(protocol, scores, primary):
+    """The band comparisons: the primary metric at the natural ratio (the primary size when it has one, else
+    the first size), one per imbalance band."""
+    points = points_of(scores, protocol)
+    sizes = [s for r, s in points if r == "natural"]
+    if not sizes:
+        return []
+    size = primary.size if primary.size in sizes else sizes[0]
+    return [Spec("band", primary.metric, "natural", size, label=label) for _, _, label in BANDS]
 
-    ``meta`` maps dataset reference -> natural imbalance ratio. By band: every ratio at the first size
-    (the natural point split by the datasets' own ratios). By size: every size at the first ratio.
-    """
-    protocol = suite["protocol"]
-    ratios, sizes = [point_label(r) for r in protocol["ratios"]], [point_label(s) for s in protocol["sizes"]]
-    rows = []
-    for value, ratio in zip(protocol["ratios"], ratios):
-        matrix = method_matrix(scores, suite["metrics"][0], ratio, sizes[0])
-        if ratio == "natural":
-            for _, _, label in BANDS:
-                members = [d for d in matrix.index if band_of(meta.get(d, 1.0)) == label]
-                rows.append(_row("imbalance band", label, f"natural ratio, size {sizes[0]}", matrix.loc[members],
-                                 alpha, rope))
-        else:
-            band = "IR = 1" if ratio == "balanced" else band_of(value)
-            rows.append(_row("imbalance band", band, f"ratio {ratio}, size {sizes[0]}", matrix, alpha, rope))
+
+def winner_rows(studies, protocol, primary):
+    """Rows {by, band, point, study} in display order: bands, then training ratios, then training sizes."""
+    overall = {(s.spec.ratio, s.spec.size): s for s in studies
+               if s.spec.kind == "point" and s.spec.learner is None and s.spec.metric == primary.metric}
+    rows = [{"by": "imbalance band", "band": s.spec.label, "point": f"natural ratio, size {s.spec.size}", "study": s}
+            for s in studies if s.spec.kind == "band"]
+    ratios, sizes = [point_label(r) for r in protocol.ratios], [point_label(s) for s in protocol.sizes]
+    for ratio in ratios:
+        point = _fullest([(ratio, s) for s in sizes], overall, (ratio, primary.size))
+        if ratio != "natural" and point:
+            label = "balanced (IR = 1)" if ratio == "balanced" else f"training ratio {ratio}"
+            rows.append({"by": "training ratio", "band": label, "point": f"ratio {ratio}, size {point[1]}",
+                         "study": overall[point]})
     if len(sizes) > 1:
         for size in sizes:
-            matrix = method_matrix(scores, suite["metrics"][0], ratios[0], size)
-            rows.append(_row("training size", size, f"ratio {ratios[0]}, size {size}", matrix, alpha, rope))
-    return [r for r in rows if r["n"] > 0]
+            point = _fullest([(r, size) for r in ratios], overall, (primary.ratio, size))
+            if point:
+                rows.append({"by": "training size", "band": f"size {size}", "point": f"ratio {point[0]}, size {size}",
+                             "study": overall[point]})
+    for row in rows:
+        study = row["study"]
+        row["tied"] = [] if not (study.ok and study.decision.rejects) else [
+            m for m in study.result.methods[1:] if study.result.nemenyi_p.loc[study.result.methods[0], m] >= study.result.alpha]
+    return [r for r in rows if r["study"].ok or r["study"].note]
 
 
-def _row(by, band, point, matrix, alpha, rope):
-    row = {"by": by, "band": band, "point": point, "n": int(len(matrix)), "best": "", "tied": [], "p": None,
-           "test": "", "claim": ""}
-    if len(matrix) == 0:
-        return row
-    try:
-        result = compare(matrix, alpha=alpha, rope=rope, samples=500)
-    except AnalysisError as exc:
-        return {**row, "claim": f"no comparison: {exc}"}
-    f = result.friedman
-    best = result.methods[0]
-    row.update(n=f.n_datasets, best=best, p=f.decision_p, test=f.decision_test)
-    if not result.claims_allowed:
-        row["claim"] = f"no claim: only {f.n_datasets} datasets (fewer than {MIN_DATASETS})"
-    elif f.decision_p >= alpha:
-        row["claim"] = f"no significant difference among the {f.n_methods} methods: no winner"
-    else:
-        row["tied"] = [m for m in result.methods[1:] if result.nemenyi_p.loc[best, m] >= alpha]
-        row["claim"] = (f"{best} ranks first; the Nemenyi test cannot separate {len(row['tied'])} of the "
-                        f"{f.n_methods - 1} others from it")
-    return row
+def _fullest(points, overall, preferred):
+    """Of the protocol points that have a comparison, the one with the most datasets (the primary analysis'
+    ratio or size first among equals, then protocol order); None when there is none."""
+    found = [p for p in points if p in overall]
+    if not found:
+        return None
+    datasets = {p: overall[p].result.friedman.n_datasets if overall[p].ok else 0 for p in found}
+    return max(found, key=lambda p: (datasets[p], p == preferred, -found.index(p)))

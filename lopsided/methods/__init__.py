@@ -1,0 +1,1 @@
+"""What is compared: resamplers, learners, preprocessing and metrics, each behind a `Registry`."""
